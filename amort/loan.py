@@ -1,0 +1,365 @@
+"""``Loan``: the terms of one level-payment loan, validated, and what follows from them.
+
+A :class:`Loan` is a frozen value object. Its inputs are normalised once, on
+construction: amounts to exact :class:`~decimal.Decimal`, rates to decimal
+fractions, conventions to enums. Change a loan with :func:`dataclasses.replace`
+(which validates again). Its figures come from the closed form (the payment)
+and from the exact-cent schedule engine (everything else), which is the same
+engine a book of a million loans runs on.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import functools
+from dataclasses import dataclass
+from decimal import Decimal
+from fractions import Fraction
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from amort import solve
+from amort.conventions import Frequency, Timing
+from amort.errors import InvalidTerms, NoSolution, describe
+from amort.exact import level_payment_cents
+from amort.frames import schedule_frame
+from amort.money import (
+    Rounding,
+    from_cents,
+    parse_amount,
+    parse_number,
+    parse_rate,
+    round_ratio,
+    to_cents,
+)
+from amort.reconcile import reconcile
+from amort.schedule import BatchTerms, CentsTable, run
+
+
+def parse_periods(value: object, field: str = "periods") -> int:
+    """Return a number of payments: a whole number from 1 to 100,000.
+
+    >>> parse_periods("360")
+    360
+    """
+    limit = solve.MAX_PERIODS
+    rule = f"{field!r} must be a whole number of payments from 1 to {limit:,}"
+    if isinstance(value, bool):
+        raise InvalidTerms(f"{rule} (got {describe(value)})")
+    if isinstance(value, (int, np.integer)):
+        number = int(value)
+    else:
+        try:
+            exact = parse_number(value, field)
+        except InvalidTerms:
+            raise InvalidTerms(f"{rule} (got {describe(value)})") from None
+        if exact != exact.to_integral_value():
+            raise InvalidTerms(
+                f"{rule}; a fraction of a payment is not a term (got {describe(value)})"
+            )
+        number = int(exact)
+    if number < 1:
+        raise InvalidTerms(f"{rule} (got {describe(value)})")
+    if number > limit:
+        raise InvalidTerms(f"{rule}; longer terms are refused as absurd (got {describe(value)})")
+    return number
+
+
+@dataclass(frozen=True)
+class Reconciliation:
+    """A schedule's checks against the closed form (see :mod:`amort.reconcile`).
+
+    Gaps and bounds are in currency units; the identities are exact checks.
+    """
+
+    largest_gap: float
+    gap_bound: float
+    final_adjustment: float
+    expected_adjustment: float
+    adjustment_bound: float
+    balloon_paid: Decimal
+    balloon_adjustment: Decimal
+    principal_identity: bool
+    payment_identity: bool
+    chain_identity: bool
+    closes_at_zero: bool
+    passed: bool
+
+    @property
+    def checks(self) -> list[tuple[str, str, bool]]:
+        """Return (check, figures, passed) for each check, for display."""
+        return [
+            (
+                "largest gap between cent and closed-form balance",
+                f"{self.largest_gap:.4f} <= bound {self.gap_bound:.4f}",
+                self.largest_gap <= self.gap_bound,
+            ),
+            (
+                "final-payment adjustment matches the closed form",
+                f"{self.final_adjustment:.2f} vs {self.expected_adjustment:.4f} "
+                f"(within {self.adjustment_bound:.4f})",
+                abs(self.final_adjustment - self.expected_adjustment) <= self.adjustment_bound,
+            ),
+            (
+                "sum(principal) + balloon = principal",
+                "exact" if self.principal_identity else "broken",
+                self.principal_identity,
+            ),
+            (
+                "sum(payment) = sum(interest) + sum(principal)",
+                "exact" if self.payment_identity else "broken",
+                self.payment_identity,
+            ),
+            (
+                "each opening balance = previous closing balance",
+                "exact" if self.chain_identity else "broken",
+                self.chain_identity,
+            ),
+            (
+                "balance closes at 0",
+                "yes" if self.closes_at_zero else "no",
+                self.closes_at_zero,
+            ),
+        ]
+
+    def as_dict(self) -> dict[str, Any]:
+        """Return the checks as plain values (for JSON)."""
+        return {f.name: getattr(self, f.name) for f in dataclasses.fields(self)}
+
+
+@dataclass(frozen=True)
+class Loan:
+    """One level-payment loan, undated: periodic rate = annual rate / payments a year.
+
+    principal: amount lent, currency units (exact decimal; floats read through their repr).
+    annual_rate: nominal rate per year as a decimal fraction (0.065 = 6.5 %) or a
+        string such as ``"6.5%"``.
+    periods: number of payments. Leave out and give ``fixed_payment`` to let the
+        term follow from the payment.
+    frequency: ``"monthly"`` (default), ``"weekly"``, ``"biweekly"``, ``"semimonthly"``,
+        ``"bimonthly"``, ``"quarterly"``, ``"semiannual"`` or ``"annual"``.
+    balloon: balance left to pay with the last payment, currency units (default 0).
+    timing: ``"arrears"`` (payments at period end, default) or ``"advance"`` (annuity-due).
+    fixed_payment: a level payment set by the user instead of the closed form.
+    rounding: how the level payment is rounded to the cent (``"half-up"`` default,
+        ``"half-even"``, ``"up"``, ``"down"``).
+    interest_rounding: how each period's interest is rounded (default ``"half-up"``).
+
+    >>> loan = Loan(principal=250_000, annual_rate="6.5%", periods=360)
+    >>> loan.payment
+    Decimal('1580.17')
+    >>> loan.summary()["final_payment"]
+    Decimal('1580.55')
+    """
+
+    principal: Decimal
+    annual_rate: Decimal
+    periods: int | None = None
+    frequency: Frequency = Frequency.MONTHLY
+    balloon: Decimal = Decimal(0)
+    timing: Timing = Timing.ARREARS
+    fixed_payment: Decimal | None = None
+    rounding: Rounding = Rounding.HALF_UP
+    interest_rounding: Rounding = Rounding.HALF_UP
+
+    def __post_init__(self) -> None:
+        set_ = functools.partial(object.__setattr__, self)
+        set_("principal", parse_amount(self.principal, "principal"))
+        set_("annual_rate", parse_rate(self.annual_rate, "annual_rate"))
+        set_("frequency", Frequency.parse(self.frequency))
+        set_("timing", Timing.parse(self.timing))
+        set_("balloon", parse_amount(self.balloon, "balloon", allow_zero=True))
+        set_("rounding", Rounding.parse(self.rounding, "rounding"))
+        set_("interest_rounding", Rounding.parse(self.interest_rounding, "interest_rounding"))
+        if self.fixed_payment is not None:
+            set_("fixed_payment", parse_amount(self.fixed_payment, "fixed_payment"))
+        if self.periods is not None:
+            set_("periods", parse_periods(self.periods))
+        elif self.fixed_payment is None:
+            raise InvalidTerms("give 'periods' (the number of payments) or 'fixed_payment'")
+        per_year = self.frequency.per_year
+        if self.annual_rate > per_year:
+            raise InvalidTerms(
+                f"'annual_rate' must be at most {per_year * 100} % for {self.frequency.value} "
+                f"payments (100 % a period) (got {self.annual_rate * 100:f} %)"
+            )
+        if self.periods is not None and self.balloon > 0:
+            self._check_balloon()
+        self._check_payment_covers_interest()
+
+    # -- derived terms -----------------------------------------------------------------
+
+    @property
+    def periodic_rate(self) -> Fraction:
+        """The exact periodic rate: annual rate / payments a year, as a fraction."""
+        return Fraction(self.annual_rate) / self.frequency.per_year
+
+    @property
+    def advance(self) -> bool:
+        """True when payments fall at the start of each period (annuity-due)."""
+        return self.timing is Timing.ADVANCE
+
+    def _check_balloon(self) -> None:
+        assert self.periods is not None
+        rate = self.periodic_rate
+        most = self.principal * Decimal((1 + float(rate)) ** self.periods)
+        if self.fixed_payment is None and rate == 0 and self.balloon >= self.principal:
+            raise InvalidTerms(
+                f"'balloon' {self.balloon:,} would need a payment of zero or less at a 0 % "
+                f"rate; it must be below the principal {self.principal:,}"
+            )
+        if self.fixed_payment is None and float(self.balloon) >= float(most) * (1 - 1e-12):
+            raise InvalidTerms(
+                f"'balloon' {self.balloon:,} would need a payment of zero or less; it must be "
+                f"below {most:,.2f}, what the principal grows to over the term"
+            )
+
+    def _first_interest_cents(self, payment_cents: int) -> int:
+        rate = self.periodic_rate
+        base = to_cents(self.principal) - (payment_cents if self.advance else 0)
+        return round_ratio(max(base, 0) * rate.numerator, rate.denominator, self.interest_rounding)
+
+    def _check_payment_covers_interest(self) -> None:
+        pay = self._level_cents
+        interest = self._first_interest_cents(pay)
+        open_term = self.periods is None
+        if pay < interest or (open_term and pay <= interest):
+            what = "'fixed_payment'" if self.fixed_payment is not None else "the level payment"
+            extra = (
+                "; the balloon is too large for the term (the balance would grow)"
+                if self.fixed_payment is None
+                else "; the balance would never be repaid"
+            )
+            error = NoSolution if open_term else InvalidTerms
+            raise error(
+                f"{what} {from_cents(pay):,} does not cover the first period's interest of "
+                f"{from_cents(interest):,}{extra}"
+            )
+
+    @functools.cached_property
+    def _level_cents(self) -> int:
+        if self.fixed_payment is not None:
+            return to_cents(self.fixed_payment)
+        assert self.periods is not None
+        rate = self.periodic_rate
+        one = lambda v: np.array([v], dtype=np.int64)  # noqa: E731
+        return int(
+            level_payment_cents(
+                one(to_cents(self.principal)),
+                one(rate.numerator),
+                one(rate.denominator),
+                one(self.periods),
+                one(to_cents(self.balloon)),
+                np.array([self.advance]),
+                self.rounding,
+            )[0]
+        )
+
+    @property
+    def payment(self) -> Decimal:
+        """The level payment per period in currency units (the closed form rounded to the cent)."""
+        return from_cents(self._level_cents)
+
+    @functools.cached_property
+    def _horizon(self) -> int:
+        """The period whose payment is the last one (or a safe cap for an open term)."""
+        if self.periods is not None:
+            return self.periods
+        term = solve.whole_periods(
+            float(self.principal),
+            float(self.periodic_rate),
+            float(self._level_cents) / 100,
+            balloon=float(self.balloon),
+            advance=self.advance,
+        )
+        # Interest rounding can move the cent schedule by a period either way;
+        # the engine stops where the balance closes, and the cap only bounds it.
+        return min(int(term.periods) + 2, solve.MAX_PERIODS + 2)
+
+    def batch_terms(self) -> BatchTerms:
+        """Return this loan as a batch of one for the schedule engine."""
+        rate = self.periodic_rate
+        one = lambda v: np.array([v], dtype=np.int64)  # noqa: E731
+        return BatchTerms(
+            principal=one(to_cents(self.principal)),
+            rate_num=one(rate.numerator),
+            rate_den=one(rate.denominator),
+            payment=one(self._level_cents),
+            periods=one(self._horizon),
+            balloon=one(to_cents(self.balloon)),
+            advance=np.array([self.advance]),
+        )
+
+    @functools.cached_property
+    def _table(self) -> CentsTable:
+        table = run(self.batch_terms(), self.interest_rounding)
+        if self.periods is None and int(table.rows[0]) > solve.MAX_PERIODS:
+            raise NoSolution(
+                f"'fixed_payment' {self.fixed_payment:,} would take {int(table.rows[0]):,} "
+                f"payments, more than the {solve.MAX_PERIODS:,} amort accepts"
+            )
+        return table
+
+    # -- results -----------------------------------------------------------------------
+
+    @property
+    def number_of_payments(self) -> int:
+        """How many payments the schedule has (fewer than ``periods`` if it closes early)."""
+        return int(self._table.rows[0])
+
+    def schedule(self) -> pd.DataFrame:
+        """Return the schedule, one row a period, money as float64 holding exact cents.
+
+        Columns: ``period, due_date, opening_balance, payment, interest, principal,
+        closing_balance``, then ``balloon`` when the loan has one.
+        """
+        return schedule_frame(self._table)
+
+    def summary(self) -> dict[str, Any]:
+        """Return the key figures: payment, number of payments, final payment, totals, maturity.
+
+        Money values are :class:`~decimal.Decimal` in currency units.
+        """
+        table = self._table
+        total_payments = from_cents(int(table.payment.sum()))
+        balloon_paid = from_cents(int(table.balloon_paid[0]))
+        return {
+            "principal": self.principal,
+            "annual_rate": self.annual_rate,
+            "periodic_rate": self.periodic_rate,
+            "frequency": self.frequency.value,
+            "timing": self.timing.value,
+            "payment": self.payment,
+            "number_of_payments": self.number_of_payments,
+            "final_payment": from_cents(int(table.final_payment[0])),
+            "balloon": balloon_paid,
+            "total_interest": from_cents(int(table.interest.sum())),
+            "total_principal": from_cents(int(table.principal.sum())),
+            "total_paid": total_payments + balloon_paid,
+            "maturity_period": self.number_of_payments,
+            "maturity_date": None,
+            "rounding": self.rounding.value,
+            "interest_rounding": self.interest_rounding.value,
+        }
+
+    def reconciliation(self) -> Reconciliation:
+        """Return the schedule's checks against the closed form (see :mod:`amort.reconcile`)."""
+        row = reconcile(self.batch_terms(), self._table, self.interest_rounding).iloc[0]
+        return Reconciliation(
+            largest_gap=float(row["largest_gap"]),
+            gap_bound=float(row["gap_bound"]),
+            final_adjustment=float(row["final_adjustment"]),
+            expected_adjustment=float(row["expected_adjustment"]),
+            adjustment_bound=float(row["adjustment_bound"]),
+            balloon_paid=from_cents(int(self._table.balloon_paid[0])),
+            balloon_adjustment=from_cents(
+                int(self._table.balloon_paid[0]) - to_cents(self.balloon)
+            ),
+            principal_identity=bool(row["principal_identity"]),
+            payment_identity=bool(row["payment_identity"]),
+            chain_identity=bool(row["chain_identity"]),
+            closes_at_zero=bool(row["closes_at_zero"]),
+            passed=bool(row["passed"]),
+        )

@@ -1,0 +1,166 @@
+"""Reconciliation of cent schedules against the closed form.
+
+Let ``c_k`` be the cent balance after period k and ``x_k`` the exact balance
+the closed form gives for the same (rounded) level payment. Each period's
+interest is rounded once, by at most ``u`` cents (``u = 1/2`` for the half
+modes, ``1`` for ``up``/``down``), so the gap ``e_k = c_k - x_k`` obeys
+``e_k = a e_{k-1} + d_k`` with ``|d_k| <= u``; hence
+
+    |c_k - x_k| <= u s_k(i),         s_k = ((1 + i)^k - 1) / i.
+
+That is the documented bound of the balance check (plus a float allowance of
+1e-12 of the balance's scale for the closed form's own error, which is about
+1e-15). The final payment differs from the level payment by the adjustment;
+in arrears it must equal ``x_n - F`` within ``u s_n``; in advance
+``(x_n - F) / a`` within ``u s_{n-1}`` plus 1.5 cents for rounding the
+balloon's present value to a cent. The identities are exact integer checks:
+sum(principal) + balloon paid = B_0, sum(payment) = sum(interest) +
+sum(principal), each opening equals the previous closing, and the last
+closing is 0.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import numpy.typing as npt
+import pandas as pd
+
+from amort import recurrence
+from amort.money import Rounding
+from amort.schedule import BatchTerms, CentsTable
+
+FloatArray = npt.NDArray[np.float64]
+
+#: Allowance for the float closed form's own error, relative to the balance scale.
+FLOAT_ALLOWANCE = 1e-12
+
+RECONCILIATION_COLUMNS = [
+    "loan",
+    "periods",
+    "largest_gap",
+    "gap_bound",
+    "final_adjustment",
+    "expected_adjustment",
+    "adjustment_bound",
+    "balloon_paid",
+    "balloon_adjustment",
+    "principal_identity",
+    "payment_identity",
+    "chain_identity",
+    "closes_at_zero",
+    "passed",
+]
+
+
+def reconcile(
+    terms: BatchTerms, table: CentsTable, interest_rounding: Rounding = Rounding.HALF_UP
+) -> pd.DataFrame:
+    """Return one row a loan with every check of the batch's cent schedule.
+
+    Money columns are in currency units (float64 holding exact cents for the
+    cent figures). ``passed`` is true when every check holds.
+    """
+    u = float(interest_rounding.max_error_cents)
+    loans = terms.size
+    rows = table.rows
+    offsets = table.offsets
+    i_loan = terms.rate_num.astype(np.float64) / terms.rate_den.astype(np.float64)
+    adv_loan = terms.advance
+    level = terms.payment.astype(np.float64)
+
+    # Closed-form balance after each row, for the same level payment, in cents.
+    idx = table.loan
+    k = table.period.astype(np.float64)
+    i_row = i_loan[idx]
+    exact = recurrence.balance(
+        terms.principal.astype(np.float64)[idx], i_row, level[idx], k, adv_loan[idx]
+    )
+    scale = recurrence.balance_scale(
+        terms.principal.astype(np.float64)[idx], i_row, level[idx], k, adv_loan[idx]
+    )
+    bound_row = u * recurrence.accumulation_factor(i_row, k) + FLOAT_ALLOWANCE * scale
+    last_row = np.zeros(table.period.size, dtype=bool)
+    ends = offsets[1:] - 1
+    has_rows = rows > 0
+    last_row[ends[has_rows]] = True
+    gap = np.abs(table.closing.astype(np.float64) - exact)
+    gap = np.where(last_row, 0.0, gap)
+    ratio = np.where(last_row, 0.0, gap / np.maximum(bound_row, 1e-300))
+    largest_gap = _per_loan(np.maximum, gap, offsets, rows)
+    worst_ratio = _per_loan(np.maximum, ratio, offsets, rows)
+    gap_bound = _per_loan(np.maximum, np.where(last_row, 0.0, bound_row), offsets, rows)
+
+    n = rows.astype(np.float64)
+    f = terms.balloon.astype(np.float64)
+    x_n = recurrence.balance(terms.principal.astype(np.float64), i_loan, level, n, adv_loan)
+    a = 1.0 + i_loan
+    expected = np.where(adv_loan, (x_n - f) / a, x_n - f)
+    adjustment = table.final_payment.astype(np.float64) - level
+    s_n = recurrence.accumulation_factor(i_loan, n)
+    s_prev = recurrence.accumulation_factor(i_loan, np.maximum(n - 1, 0))
+    scale_n = recurrence.balance_scale(
+        terms.principal.astype(np.float64), i_loan, level, n, adv_loan
+    )
+    adj_bound = np.where(adv_loan, u * s_prev + 1.5, u * s_n) + FLOAT_ALLOWANCE * scale_n
+    adjustment_ok = np.abs(adjustment - expected) <= adj_bound
+
+    balloon_adjustment = table.balloon_paid - terms.balloon
+    balloon_ok = np.where(adv_loan, np.abs(balloon_adjustment) <= 1, balloon_adjustment == 0)
+
+    sum_principal = _per_loan(np.add, table.principal, offsets, rows)
+    sum_payment = _per_loan(np.add, table.payment, offsets, rows)
+    sum_interest = _per_loan(np.add, table.interest, offsets, rows)
+    principal_identity = sum_principal + table.balloon_paid == terms.principal
+    payment_identity = sum_payment == sum_interest + sum_principal
+
+    starts_ok = np.ones(loans, dtype=bool)
+    starts_ok[has_rows] = table.opening[offsets[:-1][has_rows]] == terms.principal[has_rows]
+    follows = table.opening[1:] == table.closing[:-1]
+    broken = ~follows & (idx[1:] == idx[:-1])
+    chain = starts_ok & (np.bincount(idx[1:][broken], minlength=loans) == 0)
+    closes = np.ones(loans, dtype=bool)
+    closes[has_rows] = table.closing[ends[has_rows]] == 0
+    closes &= has_rows
+
+    passed = (
+        (worst_ratio <= 1.0)
+        & adjustment_ok
+        & balloon_ok
+        & principal_identity
+        & payment_identity
+        & chain
+        & closes
+    )
+    return pd.DataFrame(
+        {
+            "loan": np.arange(loans, dtype=np.int64),
+            "periods": rows,
+            "largest_gap": largest_gap / 100,
+            "gap_bound": gap_bound / 100,
+            "final_adjustment": adjustment / 100,
+            "expected_adjustment": expected / 100,
+            "adjustment_bound": adj_bound / 100,
+            "balloon_paid": table.balloon_paid / 100,
+            "balloon_adjustment": balloon_adjustment / 100,
+            "principal_identity": principal_identity,
+            "payment_identity": payment_identity,
+            "chain_identity": chain,
+            "closes_at_zero": closes,
+            "passed": passed,
+        },
+        columns=RECONCILIATION_COLUMNS,
+    )
+
+
+def _per_loan(
+    ufunc: np.ufunc,
+    values: npt.NDArray[np.generic],
+    offsets: npt.NDArray[np.int64],
+    rows: npt.NDArray[np.int64],
+) -> npt.NDArray[np.generic]:
+    """Reduce each loan's contiguous run of rows with ``ufunc`` (0 for a loan with no rows)."""
+    out = np.zeros(rows.size, dtype=values.dtype)
+    has_rows = rows > 0
+    if has_rows.any():
+        out[has_rows] = ufunc.reduceat(values, offsets[:-1][has_rows])
+    return out
