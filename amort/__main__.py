@@ -1,0 +1,5 @@
+"""Run the command line: ``python -m amort``."""
+
+from amort.cli import main
+
+main()

@@ -1,0 +1,171 @@
+"""Answers to the four quoting questions: payment, term, rate and principal.
+
+Each function takes exact inputs (as :class:`~amort.loan.Loan` does), solves
+its unknown in closed form, then checks the answer by building the loan's
+cent schedule, and returns a plain dict of figures (money as
+:class:`~decimal.Decimal`, rates as decimal fractions) that the CLI prints or
+dumps as JSON. Nothing here prints.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from decimal import ROUND_DOWN, Decimal
+from typing import Any
+
+from amort import rates, solve
+from amort.conventions import Frequency, Timing
+from amort.errors import NoSolution
+from amort.loan import Loan
+from amort.money import CENT, Rounding
+
+
+def _figures(loan: Loan) -> dict[str, Any]:
+    """Return a loan's key figures and whether its schedule reconciles."""
+    summary = loan.summary()
+    check = loan.reconciliation()
+    return {
+        "payment": summary["payment"],
+        "number_of_payments": summary["number_of_payments"],
+        "final_payment": summary["final_payment"],
+        "balloon": summary["balloon"],
+        "total_interest": summary["total_interest"],
+        "total_paid": summary["total_paid"],
+        "principal": loan.principal,
+        "annual_rate": loan.annual_rate,
+        "frequency": loan.frequency.value,
+        "timing": loan.timing.value,
+        "rounding": loan.rounding.value,
+        "interest_rounding": loan.interest_rounding.value,
+        "reconciled": check.passed,
+    }
+
+
+def quote_payment(loan: Loan) -> dict[str, Any]:
+    """Return the level payment of ``loan`` and its schedule's totals.
+
+    >>> quote_payment(Loan(principal=250_000, annual_rate="6.5%", periods=360))["payment"]
+    Decimal('1580.17')
+    """
+    return _figures(loan)
+
+
+def quote_term(loan: Loan) -> dict[str, Any]:
+    """Return the term that ``loan.fixed_payment`` implies: whole payments, final payment, years.
+
+    ``periods_exact`` is the fractional term of the closed form
+    ``N = log((P - iF) / (P - iB_0)) / log(1 + i)``; ``number_of_payments`` the
+    cent schedule's count (the last payment smaller).
+    """
+    if loan.fixed_payment is None:
+        raise NoSolution("give the payment to solve for the term")
+    exact = solve.periods(
+        float(loan.principal),
+        float(loan.periodic_rate),
+        float(loan.fixed_payment),
+        balloon=float(loan.balloon),
+        advance=loan.advance,
+    )
+    out = _figures(loan)
+    out["periods_exact"] = float(exact)
+    out["years"] = Decimal(out["number_of_payments"]) / loan.frequency.per_year
+    return out
+
+
+def quote_rate(
+    principal: Decimal,
+    payment: Decimal,
+    periods: int,
+    *,
+    frequency: Frequency = Frequency.MONTHLY,
+    balloon: Decimal = Decimal(0),
+    timing: Timing = Timing.ARREARS,
+) -> dict[str, Any]:
+    """Return the nominal annual rate at which ``periods`` payments repay ``principal``.
+
+    The periodic rate solves ``P a_N(i) + F v^N(i) = B_0`` (bracketed Newton,
+    :func:`amort.solve.rate`); the nominal annual rate is ``i p`` and the
+    effective annual rate ``(1 + i)^p - 1``. As a check the loan is rebuilt at
+    the rate rounded to 8 decimal places of a percent and its level payment
+    reported beside the one given.
+
+    >>> quote = quote_rate(Decimal(250_000), Decimal("1580.17"), 360)
+    >>> round(quote["annual_rate"] * 100, 4)
+    6.5
+    """
+    per_year = frequency.per_year
+    advance = timing is Timing.ADVANCE
+    periodic = float(
+        solve.rate(
+            float(principal), float(payment), periods, balloon=float(balloon), advance=advance
+        )
+    )
+    annual = periodic * per_year
+    shown = Decimal(repr(annual)).quantize(Decimal("1e-10"))
+    check = Loan(
+        principal=principal,
+        annual_rate=shown,
+        periods=periods,
+        frequency=frequency,
+        balloon=balloon,
+        timing=timing,
+    )
+    return {
+        "annual_rate": annual,
+        "annual_rate_percent": annual * 100,
+        "periodic_rate": periodic,
+        "effective_annual_rate": float(rates.effective_annual(periodic, per_year)),
+        "principal": principal,
+        "payment": payment,
+        "number_of_payments": periods,
+        "balloon": balloon,
+        "frequency": frequency.value,
+        "timing": timing.value,
+        "payment_at_rate": check.payment,
+    }
+
+
+def quote_principal(
+    payment: Decimal,
+    annual_rate: Decimal,
+    periods: int,
+    *,
+    frequency: Frequency = Frequency.MONTHLY,
+    balloon: Decimal = Decimal(0),
+    timing: Timing = Timing.ARREARS,
+    rounding: Rounding = Rounding.HALF_UP,
+) -> dict[str, Any]:
+    """Return the largest principal (to the cent, rounded down) that ``payment`` repays.
+
+    ``B_0 = P a_N + F v^N`` (``a_N (1 + i)`` in advance), rounded down so that
+    the payment of a loan of that principal never exceeds the one given; the
+    loan is rebuilt and its level payment reported as the check.
+
+    >>> quote_principal(Decimal("1580.17"), Decimal("0.065"), 360)["principal"]
+    Decimal('249999.99')
+    """
+    advance = timing is Timing.ADVANCE
+    periodic = float(annual_rate) / frequency.per_year
+    raw = float(
+        solve.principal(float(payment), periodic, periods, balloon=float(balloon), advance=advance)
+    )
+    amount = Decimal(repr(raw)).quantize(CENT, rounding=ROUND_DOWN)
+    loan = Loan(
+        principal=amount,
+        annual_rate=annual_rate,
+        periods=periods,
+        frequency=frequency,
+        balloon=balloon,
+        timing=timing,
+        rounding=rounding,
+    )
+    # The float closed form can sit a hair above the exact value: step down a cent if so.
+    for _ in range(3):
+        if loan.payment <= payment or amount <= CENT:
+            break
+        amount -= CENT
+        loan = dataclasses.replace(loan, principal=amount)
+    out = _figures(loan)
+    out["principal_exact"] = raw
+    out["payment_given"] = payment
+    return out

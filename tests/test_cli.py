@@ -1,0 +1,221 @@
+"""The command line: exit codes, key lines, JSON figures and files written (CliRunner)."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pandas as pd
+import pytest
+from typer.testing import CliRunner
+
+from amort import CAUTION
+from amort.cli import app
+
+runner = CliRunner()
+
+
+def invoke(*args: str) -> tuple[int, str, str]:
+    result = runner.invoke(app, list(args))
+    return result.exit_code, result.stdout, result.stderr
+
+
+def as_json(*args: str) -> dict:
+    code, stdout, stderr = invoke(*args, "--json")
+    assert code == 0, stderr
+    return json.loads(stdout)
+
+
+def test_payment_prints_the_design_figure() -> None:
+    # DESIGN.md: 250,000 at 6.5 % over 360 months pays 1,580.17 (also numpy-financial pmt).
+    code, stdout, _ = invoke(
+        "payment", "--principal", "250000", "--rate", "6.5", "--periods", "360"
+    )
+    assert code == 0
+    assert "1,580.17" in stdout
+    assert "computed estimates" in stdout
+
+
+def test_payment_json_has_the_figures_and_the_caution() -> None:
+    data = as_json("payment", "--principal", "250000", "--rate", "6.5%", "--periods", "360")
+    assert data["payment"] == 1580.17
+    assert data["number_of_payments"] == 360
+    assert data["reconciled"] is True
+    assert data["caution"] == CAUTION
+
+
+def test_loan_estimate_sample_payment() -> None:
+    # CFPB form H-24(B) [text]: 162,000 at 3.875 % for 30 years pays 761.78 a month.
+    data = as_json("payment", "--principal", "162000", "--rate", "3.875", "--years", "30")
+    assert data["payment"] == 761.78
+
+
+def test_years_and_frequency() -> None:
+    data = as_json(
+        "payment", "--principal", "10000", "--rate", "8", "--years", "2", "--frequency", "quarterly"
+    )
+    assert data["number_of_payments"] == 8
+    assert data["frequency"] == "quarterly"
+
+
+def test_term_gives_whole_payments_and_the_smaller_last_one() -> None:
+    data = as_json("term", "--principal", "250000", "--rate", "6.5", "--payment", "2000")
+    assert data["number_of_payments"] == 210
+    assert 0 < data["final_payment"] < 2000
+    assert 209 < data["periods_exact"] < 210
+
+
+def test_rate_recovers_the_quoted_rate() -> None:
+    data = as_json("rate", "--principal", "250000", "--payment", "1580.17", "--periods", "360")
+    assert abs(data["annual_rate_percent"] - 6.5) < 1e-4
+    assert data["payment_at_rate"] == 1580.17
+
+
+def test_principal_is_rounded_down_and_checked() -> None:
+    data = as_json("principal", "--payment", "1580.17", "--rate", "6.5", "--periods", "360")
+    assert data["principal"] == 249999.99
+    assert data["payment"] <= data["payment_given"]
+
+
+def test_schedule_on_screen_shows_rows_and_checks() -> None:
+    code, stdout, _ = invoke("schedule", "--principal", "1000", "--rate", "6", "--periods", "3")
+    assert code == 0
+    assert "336.68" in stdout  # the final payment takes the rounding adjustment
+    assert "Reconciliation" in stdout
+    assert "FAIL" not in stdout
+
+
+def test_schedule_json_rows_balance_to_zero() -> None:
+    data = as_json("schedule", "--principal", "5000", "--rate", "9", "--periods", "24")
+    rows = data["schedule"]
+    assert len(rows) == 24
+    assert rows[-1]["closing_balance"] == 0.0
+    assert data["reconciliation"]["passed"] is True
+
+
+def test_schedule_with_fixed_payment_lets_the_term_follow() -> None:
+    data = as_json("schedule", "--principal", "5000", "--rate", "9", "--payment", "500")
+    assert data["number_of_payments"] == 11
+    assert data["schedule"][-1]["payment"] < 500
+
+
+def test_schedule_csv_is_written_and_kept_without_force(tmp_path: Path) -> None:
+    target = tmp_path / "plan.csv"
+    args = (
+        "schedule",
+        "--principal",
+        "5000",
+        "--rate",
+        "9",
+        "--periods",
+        "24",
+        "--out",
+        str(target),
+    )
+    code, stdout, _ = invoke(*args)
+    assert code == 0 and "wrote 24 rows" in stdout
+    frame = pd.read_csv(target, comment="#")
+    assert list(frame.columns)[:7] == [
+        "period",
+        "due_date",
+        "opening_balance",
+        "payment",
+        "interest",
+        "principal",
+        "closing_balance",
+    ]
+    assert frame["closing_balance"].iloc[-1] == 0
+    assert target.read_text(encoding="utf-8").startswith("# " + CAUTION[:20])
+    before = target.read_bytes()
+    code, _, stderr = invoke(*args)
+    assert code == 4
+    assert "already exists" in stderr and "--force" in stderr
+    assert target.read_bytes() == before
+    code, _, _ = invoke(*args, "--force")
+    assert code == 0
+
+
+def test_schedule_out_needs_an_existing_folder(tmp_path: Path) -> None:
+    target = tmp_path / "missing" / "plan.csv"
+    code, _, stderr = invoke(
+        "schedule", "--principal", "5000", "--rate", "9", "--periods", "24", "--out", str(target)
+    )
+    assert code == 4
+    assert "does not exist" in stderr
+    assert not target.exists()
+
+
+BAD_INPUT = [
+    (["payment", "--principal", "-5", "--rate", "6.5", "--periods", "360"], "principal", 2),
+    (["payment", "--principal", "0", "--rate", "6.5", "--periods", "360"], "principal", 2),
+    (["payment", "--principal", "abc", "--rate", "6.5", "--periods", "360"], "principal", 2),
+    (["payment", "--principal", "1000", "--rate", "-1", "--periods", "12"], "rate", 2),
+    (["payment", "--principal", "1000", "--rate", "nan", "--periods", "12"], "rate", 2),
+    (["payment", "--principal", "inf", "--rate", "5", "--periods", "12"], "principal", 2),
+    (["payment", "--principal", "1000", "--rate", "5", "--periods", "0"], "periods", 2),
+    (["payment", "--principal", "1000", "--rate", "5", "--periods", "-3"], "periods", 2),
+    (["payment", "--principal", "1000", "--rate", "5", "--periods", "12.5"], "periods", 2),
+    (["payment", "--principal", "1000", "--rate", "5", "--periods", "200000"], "100,000", 2),
+    (
+        ["payment", "--principal", "1000", "--rate", "5", "--periods", "12", "--balloon", "2000"],
+        "balloon",
+        2,
+    ),
+    (
+        ["term", "--principal", "100000", "--rate", "12", "--payment", "500"],
+        "interest of 1,000.00",
+        3,
+    ),
+    (
+        [
+            "payment",
+            "--principal",
+            "1000",
+            "--rate",
+            "5",
+            "--periods",
+            "12",
+            "--frequency",
+            "daily",
+        ],
+        "frequency",
+        2,
+    ),
+    (
+        ["payment", "--principal", "1000", "--rate", "5", "--periods", "12", "--rounding", "odd"],
+        "rounding",
+        2,
+    ),
+    (["payment", "--principal", "1000", "--rate", "5"], "--periods", 2),
+    (["payment", "--principal", "1000", "--rate", "5", "--years", "1.3"], "years", 2),
+    (
+        ["rate", "--principal", "1000", "--payment", "10", "--periods", "12"],
+        "less than the principal",
+        3,
+    ),
+    (
+        ["schedule", "--principal", "1000", "--rate", "5", "--periods", "12", "--out", "x.xlsx"],
+        ".csv",
+        2,
+    ),
+]
+
+
+@pytest.mark.parametrize(("args", "needle", "code"), BAD_INPUT)
+def test_bad_input_gets_one_sentence_and_a_nonzero_exit(
+    args: list[str], needle: str, code: int
+) -> None:
+    exit_code, stdout, stderr = invoke(*args)
+    assert exit_code == code
+    assert stderr.startswith("Error: ")
+    assert needle in stderr
+    assert "Traceback" not in stderr + stdout
+    assert len(stderr.strip().splitlines()) == 1
+
+
+@pytest.mark.parametrize("verb", ["payment", "term", "rate", "principal", "schedule"])
+def test_every_verb_has_help_with_an_example(verb: str) -> None:
+    code, stdout, _ = invoke(verb, "--help")
+    assert code == 0
+    assert "Example" in stdout
+    assert "--json" in stdout
