@@ -69,17 +69,42 @@ def _first(values: FloatArray, mask: npt.NDArray[np.bool_]) -> float:
     return float(np.broadcast_to(values, mask.shape)[mask].ravel()[0])
 
 
+def _show(value: float) -> str:
+    """Return a float as it should appear in a message: its shortest repr."""
+    return repr(float(value))
+
+
 def _array(value: ArrayLike, field: str) -> FloatArray:
+    if value is None:
+        raise InvalidTerms(f"{field!r} must be numeric (got None)")
+    raw = np.asarray(value) if not isinstance(value, np.ndarray) else value
+    if raw.dtype == bool or raw.dtype == object or raw.dtype.kind in "USV":
+        if raw.dtype == object:
+            try:
+                raw = raw.astype(np.float64)
+            except (TypeError, ValueError):
+                raise InvalidTerms(f"{field!r} must be numeric (got {value!r})") from None
+        else:
+            raise InvalidTerms(f"{field!r} must be numeric (got {value!r})")
     try:
-        out = np.asarray(value, dtype=np.float64)
+        out = np.asarray(raw, dtype=np.float64)
     except (TypeError, ValueError):
         raise InvalidTerms(f"{field!r} must be numeric (got {value!r})") from None
     bad = ~np.isfinite(out)
     if bad.any():
         raise InvalidTerms(
-            f"{field!r} must be a finite number (got {_first(out, bad)}){_where(bad)}"
+            f"{field!r} must be a finite number (got {_show(_first(out, bad))}){_where(bad)}"
         )
     return out
+
+
+def _together(**arrays: ArrayLike) -> None:
+    """Raise :class:`InvalidTerms` naming the shapes when the inputs do not broadcast."""
+    try:
+        np.broadcast(*(np.asarray(a) for a in arrays.values()))
+    except ValueError:
+        shapes = ", ".join(f"{k} {np.shape(a)}" for k, a in arrays.items())
+        raise InvalidTerms(f"the input arrays do not broadcast together ({shapes})") from None
 
 
 def _check(bad: npt.NDArray[np.bool_], message: str, errors: Errors) -> None:
@@ -92,7 +117,7 @@ def _money(value: ArrayLike, field: str, *, positive: bool) -> FloatArray:
     bad = out <= 0 if positive else out < 0
     if bad.any():
         rule = "> 0" if positive else ">= 0"
-        raise InvalidTerms(f"{field!r} must be {rule} (got {_first(out, bad):g}){_where(bad)}")
+        raise InvalidTerms(f"{field!r} must be {rule} (got {_show(_first(out, bad))}){_where(bad)}")
     return out
 
 
@@ -102,7 +127,7 @@ def _rate(value: ArrayLike) -> FloatArray:
     if bad.any():
         raise InvalidTerms(
             "'rate' must be a periodic rate between 0 and 1 (0 % to 100 % a period) "
-            f"(got {_first(out, bad):g}){_where(bad)}"
+            f"(got {_show(_first(out, bad))}){_where(bad)}"
         )
     return out
 
@@ -113,7 +138,7 @@ def _count(value: ArrayLike, field: str, *, minimum: int) -> FloatArray:
     if bad.any():
         raise InvalidTerms(
             f"{field!r} must be a whole number from {minimum} to {MAX_PERIODS:,} "
-            f"(got {_first(out, bad):g}){_where(bad)}"
+            f"(got {_show(_first(out, bad))}){_where(bad)}"
         )
     return out
 
@@ -140,6 +165,7 @@ def payment(
     i = _rate(rate)
     n = _count(periods, "periods", minimum=1)
     f = _money(balloon, "balloon", positive=False)
+    _together(principal=b0, rate=i, periods=n, balloon=f, advance=advance)
     out = recurrence.payment(b0, i, n, f, advance)
     bad = ~(out > 0)
     if errors == "raise" and bad.any():
@@ -171,6 +197,7 @@ def principal(
     i = _rate(rate)
     n = _count(periods, "periods", minimum=1)
     f = _money(balloon, "balloon", positive=False)
+    _together(payment=p, rate=i, periods=n, balloon=f, advance=advance)
     return recurrence.principal(p, i, n, f, advance)
 
 
@@ -194,6 +221,7 @@ def balance(
     i = _rate(rate)
     p = _money(payment, "payment", positive=False)
     kk = _count(k, "k", minimum=0)
+    _together(principal=b0, rate=i, payment=p, k=kk, advance=advance)
     return recurrence.balance(b0, i, p, kk, advance)
 
 
@@ -232,6 +260,7 @@ def periods(
     i = _rate(rate)
     p = _money(payment, "payment", positive=True)
     f = _money(balloon, "balloon", positive=False)
+    _together(principal=b0, rate=i, payment=p, balloon=f, advance=advance)
     if errors == "raise":
         _not_covered(b0, i, p, advance)
         _check(
@@ -240,7 +269,7 @@ def periods(
             errors,
         )
     out = recurrence.periods(b0, i, p, f, advance)
-    return np.where(np.isfinite(out) & (out >= 0), out, np.nan)
+    return np.where(np.isfinite(out) & (out >= 0) & (f < b0), out, np.nan)
 
 
 def whole_periods(
@@ -267,6 +296,7 @@ def whole_periods(
     i = _rate(rate)
     p = _money(payment, "payment", positive=True)
     f = _money(balloon, "balloon", positive=False)
+    _together(principal=b0, rate=i, payment=p, balloon=f, advance=advance)
     frac = periods(b0, i, p, balloon=f, advance=advance)
     nearest = np.round(frac)
     snapped = np.where(np.abs(frac - nearest) <= 1e-9 * np.maximum(1.0, frac), nearest, frac)
@@ -296,7 +326,10 @@ def rate(
 
     Solves ``PV(i) = P a_N(i) [x (1 + i)] + F v^N(i) = B_0`` by Newton steps
     kept inside a bracket that shrinks every iteration (bisection when a step
-    leaves it), vectorised across loans. With non-negative payments ``PV`` is
+    leaves it), vectorised across loans. The gap ``PV(i) - B_0`` is evaluated
+    by :func:`amort.recurrence.present_value_gap`, which avoids the
+    cancellation near small rates, so the root is accurate to a few ulps
+    even at ``i = 1e-12``. With non-negative payments ``PV`` is
     strictly decreasing in ``i``, so the root is unique when it exists. It
     exists when ``PV(0) = N P + F >= B_0`` (else the implied rate is negative)
     and, in advance, when the first payment is less than the principal;
@@ -309,10 +342,13 @@ def rate(
     p = _money(payment, "payment", positive=True)
     n = _count(periods, "periods", minimum=1)
     f = _money(balloon, "balloon", positive=False)
+    _together(principal=b0, payment=p, periods=n, balloon=f, advance=advance)
     b0, p, n, f = np.broadcast_arrays(b0, p, n, f)
     adv = np.broadcast_to(np.asarray(advance, dtype=bool), b0.shape)
     total = p * n + f
-    short = total < b0 * (1 - 4 * np.finfo(float).eps)
+    # N P + F - B_0 from exact products: > 0 exactly when some rate > 0 repays the loan.
+    excess = recurrence.present_value_gap(np.zeros_like(b0), p, n, b0, f, adv)
+    short = excess < -4 * np.finfo(float).eps * b0
     if errors == "raise" and short.any():
         raise NoSolution(
             f"the payments total {_first(total, short):,.2f}, less than the principal "
@@ -325,14 +361,17 @@ def rate(
             f"{_first(b0, upfront):,.2f} on day one; no finite rate fits{_where(upfront)}"
         )
     high = np.full(b0.shape, MAX_PERIODIC_RATE)
-    too_high = recurrence.present_value(high, p, n, f, adv) > b0
+    # A root within float noise of 100 % (the payment of a loan at exactly 100 %,
+    # rounded) counts as 100 %, not as "above".
+    too_high = recurrence.present_value_gap(high, p, n, b0, f, adv) > 4 * np.finfo(float).eps * b0
     if errors == "raise" and (too_high & ~short & ~upfront).any():
         bad = too_high & ~short & ~upfront
         raise NoSolution(
             f"the implied rate is above 100 % a period, outside what amort solves for{_where(bad)}"
         )
-    out = _solve_rate(b0, p, n, f, adv, high)
-    return np.where(short | upfront | too_high, np.nan, np.where(total <= b0, 0.0, out))
+    none = short | upfront | too_high
+    out = _solve_rate(b0, p, n, f, adv, high, excess, skip=none | (excess <= 0))
+    return np.where(none, np.nan, np.where(excess <= 0, 0.0, out))
 
 
 def _solve_rate(
@@ -342,17 +381,21 @@ def _solve_rate(
     f: FloatArray,
     adv: npt.NDArray[np.bool_],
     high: FloatArray,
+    excess: FloatArray,
+    *,
+    skip: npt.NDArray[np.bool_],
 ) -> FloatArray:
+    """Return the root of ``present_value_gap`` in ``(0, high]``; elements in ``skip`` are left."""
     eps = np.finfo(float).eps
     lo = np.zeros_like(b0)
     hi = high.copy()
     # First guess from the small-rate expansion P N + F - B_0 ~ i B_0 (N + 1) / 2.
     with np.errstate(divide="ignore", invalid="ignore"):
-        x = 2 * (p * n + f - b0) / (b0 * (n + 1))
+        x = 2 * excess / (b0 * (n + 1))
     x = np.where(np.isfinite(x) & (x > 0) & (x < hi), x, hi / 2)
-    done = np.zeros(b0.shape, dtype=bool)
+    done = skip.copy()
     for _ in range(300):
-        g = recurrence.present_value(x, p, n, f, adv) - b0
+        g = recurrence.present_value_gap(x, p, n, b0, f, adv)
         dg = recurrence.present_value_derivative(x, p, n, f, adv)
         lo = np.where(g > 0, x, lo)
         hi = np.where(g < 0, x, hi)
