@@ -13,7 +13,7 @@ from __future__ import annotations
 import enum
 import math
 import re
-from decimal import Decimal, InvalidOperation
+from decimal import Decimal
 from fractions import Fraction
 
 import numpy as np
@@ -83,7 +83,8 @@ def parse_number(value: object, field: str) -> Decimal:
     elif isinstance(value, float):
         if not math.isfinite(value):
             raise InvalidTerms(f"{field!r} must be a finite number (got {value})")
-        result = Decimal(repr(value))
+        # float(value): numpy.float64 is a float whose repr is "np.float64(...)"
+        result = Decimal(repr(float(value)))
     elif isinstance(value, Fraction):
         raise InvalidTerms(f"{field!r} must be a decimal number, not a fraction (got {value})")
     elif isinstance(value, (np.integer, np.floating)):
