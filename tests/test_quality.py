@@ -57,6 +57,7 @@ CORE = {
     "errors",
     "daycount",
     "calendar",
+    "variable",
 }
 FORBIDDEN_IN_CORE = {"pandas", "sympy", "openpyxl", "typer", "rich", "amort.cli", "amort.io"}
 
