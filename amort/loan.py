@@ -247,6 +247,12 @@ class Loan:
 
     def _check_payment_covers_interest(self) -> None:
         pay = self._level_cents
+        if pay <= 0:
+            raise InvalidTerms(
+                f"the level payment of {self.principal:,} over {self.periods:,} payments "
+                f"rounds to {from_cents(pay):,} under {self.rounding.value!r} rounding; "
+                "use fewer payments or 'up' rounding"
+            )
         interest = self._first_interest_cents(pay)
         open_term = self.periods is None
         if pay < interest or (open_term and pay <= interest):

@@ -16,132 +16,34 @@ Rules (DESIGN.md, "Money and rounding"):
 - a loan whose balance would close before period N (a payment rounded up, a
   payment fixed by the user) ends on the period where it closes.
 
-Interest is computed without overflow as ``q = (B // d) n + ((B % d) n) // d``
-when ``B n`` could pass 2**62; terms whose ``n d`` would not fit int64 run the
-same steps on Python integers (object arrays), slower but still exact.
+Two paths give the same cents. Ordinary terms (non-negative principal, balloon
+and rate, balances below about 2**48 cents) take the fast path: balances held as
+float64 integers (exact below 2**53), interest from a float estimate confirmed by
+an exact product comparison, loans stepped in cache-sized chunks and written into
+the table block by block (see the notes above ``_run_fast``). Everything else
+takes the general path, in int64: interest computed without overflow as
+``q = (B // d) n + ((B % d) n) // d`` when ``B n`` could pass 2**62; terms whose
+``n d`` would not fit int64 run the same steps on Python integers (object
+arrays), slower but still exact.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
-import numpy.typing as npt
 
-from amort.money import Rounding, round_up_flags
+from amort.batch import (
+    BatchTerms,
+    CentsTable,
+    IntArray,
+    advance_remainder,
+    interest_cents,
+)
+from amort.money import Rounding
+from amort.schedule_fast import run_fast
 
-IntArray = npt.NDArray[np.int64]
-BoolArray = npt.NDArray[np.bool_]
-
-_SAFE = 2**62
-
-
-@dataclass(frozen=True)
-class BatchTerms:
-    """Terms of a batch of level-payment loans, one array element a loan.
-
-    principal, payment, balloon: integer cents (``int64``).
-    rate_num, rate_den: the periodic rate as an exact fraction (``rate_den > 0``).
-    periods: the number of the period whose payment is the last one (``int64``).
-    advance: payments at the start of each period (annuity-due) where true.
-    """
-
-    principal: IntArray
-    rate_num: IntArray
-    rate_den: IntArray
-    payment: IntArray
-    periods: IntArray
-    balloon: IntArray
-    advance: BoolArray
-
-    def __post_init__(self) -> None:
-        size = self.principal.shape
-        for name in ("rate_num", "rate_den", "payment", "periods", "balloon", "advance"):
-            if getattr(self, name).shape != size:
-                raise ValueError(
-                    f"BatchTerms.{name} has shape {getattr(self, name).shape}, not {size}"
-                )
-
-    @property
-    def size(self) -> int:
-        """Number of loans in the batch."""
-        return int(self.principal.shape[0])
-
-    @property
-    def needs_big_integers(self) -> bool:
-        """True when some rate's ``num x den`` would not fit int64 arithmetic."""
-        num = [int(x) for x in self.rate_num]
-        den = [int(x) for x in self.rate_den]
-        return any(n * d >= _SAFE for n, d in zip(num, den, strict=True))
-
-
-@dataclass(frozen=True)
-class CentsTable:
-    """The rows of a batch schedule, in loan-then-period order, money in int64 cents.
-
-    ``loan`` is the index of the row's loan in the batch; ``period`` counts from 1.
-    ``balloon`` is non-zero only on a loan's last row. Per loan: ``rows`` (how
-    many periods it ran), ``final_payment`` and ``balloon_paid``.
-    """
-
-    loan: IntArray
-    period: IntArray
-    opening: IntArray
-    payment: IntArray
-    interest: IntArray
-    principal: IntArray
-    closing: IntArray
-    balloon: IntArray
-    rows: IntArray
-    final_payment: IntArray
-    balloon_paid: IntArray
-
-    @property
-    def offsets(self) -> IntArray:
-        """Index of each loan's first row (length ``loans + 1``, last = total rows)."""
-        return np.concatenate([[0], np.cumsum(self.rows)]).astype(np.int64)
-
-    def loan_rows(self, index: int) -> slice:
-        """Return the slice of rows that belong to loan ``index``."""
-        start = int(self.offsets[index])
-        return slice(start, start + int(self.rows[index]))
-
-
-def interest_cents(balance: IntArray, num: IntArray, den: IntArray, mode: Rounding) -> IntArray:
-    """Return ``balance x num / den`` rounded to the cent, elementwise, exactly.
-
-    ``balance >= 0``; ``num x den`` must fit int64 (or the arrays be object
-    arrays of Python integers).
-    """
-    if balance.dtype == object or int(balance.max(initial=0)) * int(num.max(initial=0)) < _SAFE:
-        q, r = np.divmod(balance * num, den)
-    else:
-        q_b, r_b = np.divmod(balance, den)
-        q_r, r = np.divmod(r_b * num, den)
-        q = q_b * num + q_r
-    return q + round_up_flags(q, r, den, mode)
-
-
-def _advance_remainder(terms: BatchTerms, mode: Rounding, dtype: object) -> IntArray:
-    """Return y, the cents left after the last payment in advance, that grow to the balloon.
-
-    ``y + interest(y) = F`` is met exactly when some cent amount allows it
-    (the first of ``round(F / a)``, one cent less, one cent more); otherwise
-    ``y = round(F / a)`` and the balloon paid differs from F by a cent.
-    """
-    f = terms.balloon.astype(dtype)
-    num = terms.rate_num.astype(dtype)
-    den = terms.rate_den.astype(dtype)
-    q, r = np.divmod(f * den, den + num)
-    best = q + round_up_flags(q, r, den + num, Rounding.HALF_UP)
-
-    def grows_to_balloon(y: IntArray) -> BoolArray:
-        return np.asarray(y + interest_cents(y, num, den, mode) == f, dtype=bool)
-
-    for shift in (-1, 1):
-        candidate = np.maximum(best + shift, 0)
-        best = np.where(~grows_to_balloon(best) & grows_to_balloon(candidate), candidate, best)
-    return np.where(terms.advance & (f > 0), best, 0)
+__all__ = ["BatchTerms", "CentsTable", "interest_cents", "run"]
 
 
 def run(terms: BatchTerms, interest_rounding: Rounding = Rounding.HALF_UP) -> CentsTable:
@@ -155,8 +57,16 @@ def run(terms: BatchTerms, interest_rounding: Rounding = Rounding.HALF_UP) -> Ce
     >>> int(table.rows[0]), int(table.final_payment[0]), int(table.closing[-1])
     (12, 86070, 0)
     """
+    table = run_fast(terms, interest_rounding)
+    if table is None:
+        table = _run_general(terms, interest_rounding)
+    return table
+
+
+def _run_general(terms: BatchTerms, interest_rounding: Rounding) -> CentsTable:
+    """Step every loan in int64 (or Python-integer) arithmetic; any terms, any size."""
     big = terms.needs_big_integers
-    dtype: object = object if big else np.int64
+    dtype: Any = object if big else np.int64
     loans = terms.size
     horizon = int(terms.periods.max(initial=0))
     num = terms.rate_num.astype(dtype)
@@ -165,7 +75,7 @@ def run(terms: BatchTerms, interest_rounding: Rounding = Rounding.HALF_UP) -> Ce
     balloon = terms.balloon.astype(dtype)
     last = terms.periods
     advance = terms.advance
-    remainder = _advance_remainder(terms, interest_rounding, dtype)
+    remainder = advance_remainder(terms, interest_rounding, dtype)
 
     # Period-major storage: step k writes one contiguous row of each array.
     opening = np.zeros((horizon, loans), dtype=dtype)

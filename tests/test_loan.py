@@ -127,9 +127,7 @@ def test_balloon_that_would_need_a_negative_payment() -> None:
 
 def test_tiny_principal_that_cents_cannot_repay_is_refused() -> None:
     # 0.01 at 20 % a period with interest rounded up: a 0.2-cent payment, a 1-cent interest
-    with pytest.raises(
-        InvalidTerms, match=r"0\.00 does not cover .* of 0\.01; the principal is too"
-    ):
+    with pytest.raises(InvalidTerms, match=r"rounds to 0\.00"):
         Loan(principal="0.01", annual_rate="240%", periods=120, interest_rounding="up")
 
 
@@ -336,3 +334,12 @@ def test_reconciliation_of_the_design_example() -> None:
     assert all(ok for _, _, ok in check.checks)
     assert check.as_dict()["passed"] is True
     assert len(check.checks) == 6
+
+
+def test_a_level_payment_that_rounds_to_zero_is_refused() -> None:
+    # 0.01 over 100,000 payments at 0 % is a payment of 0.00001: no schedule can pay that.
+    with pytest.raises(InvalidTerms, match=r"rounds to 0\.00"):
+        Loan(principal="0.01", annual_rate=0, periods=100_000)
+    assert Loan(principal="0.01", annual_rate=0, periods=100_000, rounding="up").payment == Decimal(
+        "0.01"
+    )

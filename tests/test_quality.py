@@ -58,6 +58,9 @@ CORE = {
     "daycount",
     "calendar",
     "variable",
+    "batch",
+    "schedule_fast",
+    "dated",
 }
 FORBIDDEN_IN_CORE = {"pandas", "sympy", "openpyxl", "typer", "rich", "amort.cli", "amort.io"}
 

@@ -1,0 +1,150 @@
+"""The batch types of the schedule engine, and its exact interest rule.
+
+A batch is a set of loans in integer cents (``int64``) with each loan's
+periodic rate an exact fraction ``rate_num / rate_den``; its schedule is a
+:class:`CentsTable` of rows in loan-then-period order. Both engine paths
+(:mod:`amort.schedule` and :mod:`amort.schedule_fast`) share these.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import numpy.typing as npt
+
+from amort.money import Rounding, round_up_flags
+
+IntArray = npt.NDArray[np.int64]
+BoolArray = npt.NDArray[np.bool_]
+
+#: Products below this stay exact in int64 arithmetic.
+SAFE = 2**62
+_SAFE = SAFE
+
+
+@dataclass(frozen=True)
+class BatchTerms:
+    """Terms of a batch of level-payment loans, one array element a loan.
+
+    principal, payment, balloon: integer cents (``int64``).
+    rate_num, rate_den: the periodic rate as an exact fraction (``rate_den > 0``).
+    periods: the number of the period whose payment is the last one (``int64``).
+    advance: payments at the start of each period (annuity-due) where true.
+    """
+
+    principal: IntArray
+    rate_num: IntArray
+    rate_den: IntArray
+    payment: IntArray
+    periods: IntArray
+    balloon: IntArray
+    advance: BoolArray
+
+    def __post_init__(self) -> None:
+        size = self.principal.shape
+        for name in ("rate_num", "rate_den", "payment", "periods", "balloon", "advance"):
+            if getattr(self, name).shape != size:
+                raise ValueError(
+                    f"BatchTerms.{name} has shape {getattr(self, name).shape}, not {size}"
+                )
+
+    @property
+    def size(self) -> int:
+        """Number of loans in the batch."""
+        return int(self.principal.shape[0])
+
+    @property
+    def needs_big_integers(self) -> bool:
+        """True when some rate's ``num x den`` would not fit int64 arithmetic."""
+        if self.size and self.rate_num.dtype.kind in "iu" and self.rate_den.dtype.kind in "iu":
+            # |num| x |den| < 2**62 for the largest of each settles it without a loop.
+            widest_num = max(int(self.rate_num.max()), -int(self.rate_num.min()))
+            widest_den = max(int(self.rate_den.max()), -int(self.rate_den.min()))
+            if widest_num * widest_den < _SAFE:
+                return False
+        num = [int(x) for x in self.rate_num]
+        den = [int(x) for x in self.rate_den]
+        return any(n * d >= _SAFE for n, d in zip(num, den, strict=True))
+
+
+@dataclass(frozen=True)
+class CentsTable:
+    """The rows of a batch schedule, in loan-then-period order, money in int64 cents.
+
+    ``loan`` is the index of the row's loan in the batch; ``period`` counts from 1.
+    ``balloon`` is non-zero only on a loan's last row. Per loan: ``rows`` (how
+    many periods it ran), ``final_payment`` and ``balloon_paid``.
+    """
+
+    loan: IntArray
+    period: IntArray
+    opening: IntArray
+    payment: IntArray
+    interest: IntArray
+    principal: IntArray
+    closing: IntArray
+    balloon: IntArray
+    rows: IntArray
+    final_payment: IntArray
+    balloon_paid: IntArray
+
+    @property
+    def offsets(self) -> IntArray:
+        """Index of each loan's first row (length ``loans + 1``, last = total rows)."""
+        return np.concatenate([[0], np.cumsum(self.rows)]).astype(np.int64)
+
+    def loan_rows(self, index: int) -> slice:
+        """Return the slice of rows that belong to loan ``index``."""
+        start = int(self.offsets[index])
+        return slice(start, start + int(self.rows[index]))
+
+
+def exact_divmod(a: IntArray, b: IntArray) -> tuple[IntArray, IntArray]:
+    """``np.divmod``, also for object arrays of Python integers (numpy has no such loop)."""
+    if a.dtype == object or np.asarray(b).dtype == object:
+        return a // b, a % b
+    q, r = np.divmod(a, b)
+    return q, r
+
+
+def interest_cents(balance: IntArray, num: IntArray, den: IntArray, mode: Rounding) -> IntArray:
+    """Return ``balance x num / den`` rounded to the cent, elementwise, exactly.
+
+    ``balance >= 0``; ``num x den`` must fit int64 (or the arrays be object
+    arrays of Python integers).
+    """
+    if balance.dtype == object or int(balance.max(initial=0)) * int(num.max(initial=0)) < _SAFE:
+        q, r = exact_divmod(balance * num, den)
+    else:
+        q_b, r_b = np.divmod(balance, den)
+        q_r, r = np.divmod(r_b * num, den)
+        q = q_b * num + q_r
+    return q + round_up_flags(q, r, den, mode)
+
+
+def advance_remainder(terms: BatchTerms, mode: Rounding, dtype: Any) -> IntArray:
+    """Return y, the cents left after the last payment in advance, that grow to the balloon.
+
+    ``y + interest(y) = F`` is met exactly when some cent amount allows it
+    (the first of ``round(F / a)``, one cent less, one cent more); otherwise
+    ``y = round(F / a)`` and the balloon paid differs from F by a cent.
+    """
+    wide = int(terms.balloon.max(initial=0)) * (
+        int(terms.rate_den.max(initial=0)) + int(terms.rate_num.max(initial=0))
+    )
+    work: Any = object if wide >= _SAFE else dtype
+    f = terms.balloon.astype(work)
+    num = terms.rate_num.astype(work)
+    den = terms.rate_den.astype(work)
+    q, r = exact_divmod(f * den, den + num)
+    best = q + round_up_flags(q, r, den + num, Rounding.HALF_UP)
+
+    def grows_to_balloon(y: IntArray) -> BoolArray:
+        return np.asarray(y + interest_cents(y, num, den, mode) == f, dtype=bool)
+
+    for shift in (-1, 1):
+        candidate = np.maximum(best + shift, 0)
+        best = np.where(~grows_to_balloon(best) & grows_to_balloon(candidate), candidate, best)
+    return np.asarray(np.where(terms.advance & (f > 0), best, 0)).astype(dtype)
