@@ -32,6 +32,9 @@ class BatchTerms:
     rate_num, rate_den: the periodic rate as an exact fraction (``rate_den > 0``).
     periods: the number of the period whose payment is the last one (``int64``).
     advance: payments at the start of each period (annuity-due) where true.
+    period_rate_num, period_rate_den: optional ``(max periods, loans)`` arrays of
+        each period's exact rate (dated loans); they replace ``rate_num / rate_den``
+        period by period, and may be object arrays of Python integers.
     """
 
     principal: IntArray
@@ -41,6 +44,8 @@ class BatchTerms:
     periods: IntArray
     balloon: IntArray
     advance: BoolArray
+    period_rate_num: IntArray | None = None
+    period_rate_den: IntArray | None = None
 
     def __post_init__(self) -> None:
         size = self.principal.shape
@@ -49,6 +54,30 @@ class BatchTerms:
                 raise ValueError(
                     f"BatchTerms.{name} has shape {getattr(self, name).shape}, not {size}"
                 )
+        if (self.period_rate_num is None) != (self.period_rate_den is None):
+            raise ValueError(
+                "BatchTerms needs both period_rate_num and period_rate_den, or neither"
+            )
+        if self.period_rate_num is not None and self.period_rate_den is not None:
+            shape = (int(self.periods.max(initial=0)), *size)
+            for name in ("period_rate_num", "period_rate_den"):
+                if getattr(self, name).shape != shape:
+                    raise ValueError(
+                        f"BatchTerms.{name} has shape {getattr(self, name).shape}, not {shape}"
+                    )
+
+    @property
+    def varies(self) -> bool:
+        """True when the batch carries a rate for each period (dated loans)."""
+        return self.period_rate_num is not None
+
+    def last_rates(self) -> tuple[IntArray, IntArray]:
+        """Return each loan's rate in its last period, as (numerators, denominators)."""
+        if self.period_rate_num is None or self.period_rate_den is None:
+            return self.rate_num, self.rate_den
+        row = np.maximum(self.periods - 1, 0)
+        cols = np.arange(self.size)
+        return self.period_rate_num[row, cols], self.period_rate_den[row, cols]
 
     @property
     def size(self) -> int:
@@ -58,15 +87,20 @@ class BatchTerms:
     @property
     def needs_big_integers(self) -> bool:
         """True when some rate's ``num x den`` would not fit int64 arithmetic."""
+        if self.period_rate_num is not None and self.period_rate_den is not None:
+            per_num, per_den = self.period_rate_num, self.period_rate_den
+            if per_num.dtype == object or per_den.dtype == object:
+                return True
+            if per_num.size and int(np.abs(per_num).max()) * int(np.abs(per_den).max()) >= _SAFE:
+                return True
         if self.size and self.rate_num.dtype.kind in "iu" and self.rate_den.dtype.kind in "iu":
             # |num| x |den| < 2**62 for the largest of each settles it without a loop.
             widest_num = max(int(self.rate_num.max()), -int(self.rate_num.min()))
             widest_den = max(int(self.rate_den.max()), -int(self.rate_den.min()))
             if widest_num * widest_den < _SAFE:
                 return False
-        num = [int(x) for x in self.rate_num]
-        den = [int(x) for x in self.rate_den]
-        return any(n * d >= _SAFE for n, d in zip(num, den, strict=True))
+        pairs = zip(self.rate_num.tolist(), self.rate_den.tolist(), strict=True)
+        return any(int(n) * int(d) >= _SAFE for n, d in pairs)
 
 
 @dataclass(frozen=True)
@@ -131,13 +165,14 @@ def advance_remainder(terms: BatchTerms, mode: Rounding, dtype: Any) -> IntArray
     (the first of ``round(F / a)``, one cent less, one cent more); otherwise
     ``y = round(F / a)`` and the balloon paid differs from F by a cent.
     """
+    last_num, last_den = terms.last_rates()
     wide = int(terms.balloon.max(initial=0)) * (
-        int(terms.rate_den.max(initial=0)) + int(terms.rate_num.max(initial=0))
+        int(np.asarray(last_den).max(initial=0)) + int(np.asarray(last_num).max(initial=0))
     )
     work: Any = object if wide >= _SAFE else dtype
     f = terms.balloon.astype(work)
-    num = terms.rate_num.astype(work)
-    den = terms.rate_den.astype(work)
+    num = np.asarray(last_num).astype(work)
+    den = np.asarray(last_den).astype(work)
     q, r = exact_divmod(f * den, den + num)
     best = q + round_up_flags(q, r, den + num, Rounding.HALF_UP)
 

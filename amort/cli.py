@@ -13,11 +13,13 @@ import json
 import os
 import sys
 from collections.abc import Iterator
+from datetime import date
 from decimal import Decimal
 from fractions import Fraction
 from pathlib import Path
 from typing import Annotated, Any
 
+import pandas as pd
 import typer
 from rich.console import Console
 from rich.table import Table
@@ -25,6 +27,7 @@ from rich.table import Table
 from amort import __version__
 from amort.caution import CAUTION
 from amort.conventions import Frequency, Timing
+from amort.daycount import DayCount
 from amort.errors import AmortError, InvalidTerms
 from amort.io.csv import write_schedule_csv
 from amort.loan import Loan, parse_periods
@@ -76,6 +79,88 @@ InterestRounding = Annotated[
     typer.Option("--interest-rounding", help=f"Rounding of each period's interest: {ROUNDINGS}."),
 ]
 AsJson = Annotated[bool, typer.Option("--json", help="Print a JSON object instead of tables.")]
+DAY_COUNTS = ", ".join(d.value for d in DayCount)
+Start = Annotated[
+    str | None,
+    typer.Option("--start", help="Disbursement date, YYYY-MM-DD (makes the loan dated)."),
+]
+FirstPayment = Annotated[
+    str | None, typer.Option("--first-payment", help="First due date, YYYY-MM-DD.")
+]
+DayCountOpt = Annotated[str, typer.Option("--day-count", help=f"Interest day count: {DAY_COUNTS}.")]
+CompoundingOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--compounding",
+        help="Compoundings a year when they differ from payments: a number, a frequency "
+        "name or 'continuous' (equal day count only).",
+    ),
+]
+BusinessDays = Annotated[
+    str,
+    typer.Option(
+        "--business-days",
+        help="Move due dates off weekends and holidays: none, following, "
+        "modified-following, preceding.",
+    ),
+]
+Holidays = Annotated[
+    str | None,
+    typer.Option("--holidays", help="Holiday calendar by country[-subdivision] code, e.g. US-NY."),
+]
+OddDaysOpt = Annotated[
+    str,
+    typer.Option(
+        "--odd-days",
+        help="Interest of the extra days of a long first period: accrue, separate, capitalise.",
+    ),
+]
+EndOfMonth = Annotated[
+    bool,
+    typer.Option("--end-of-month", help="A first due date at a month end stays at month ends."),
+]
+InterestDatesOpt = Annotated[
+    str,
+    typer.Option(
+        "--interest-dates",
+        help="Interest runs to the 'unadjusted' (scheduled) or 'adjusted' due dates.",
+    ),
+]
+SemimonthlyDays = Annotated[
+    str,
+    typer.Option(
+        "--semimonthly-days", help="The two due days of a semimonthly loan, e.g. 1,15 or 15,end."
+    ),
+]
+
+
+def _dated(
+    start: str | None,
+    first_payment: str | None,
+    day_count: str,
+    compounding: str | None,
+    business_days: str,
+    holidays: str | None,
+    odd_days: str,
+    end_of_month: bool,
+    interest_dates: str,
+    semimonthly_days: str,
+) -> dict[str, Any]:
+    """Return the Loan keywords of the dated options (the library validates them)."""
+    return {
+        "start": start,
+        "first_payment": first_payment,
+        "day_count": day_count,
+        "compounding": compounding,
+        "business_days": business_days,
+        "holidays": holidays,
+        "odd_days": odd_days,
+        "end_of_month": end_of_month,
+        "interest_dates": interest_dates,
+        "semimonthly_days": tuple(part.strip() for part in semimonthly_days.split(",")),
+    }
+
+
 OutFile = Annotated[
     Path | None,
     typer.Option(
@@ -115,9 +200,11 @@ def _periods(periods: str | None, years: str | None, frequency: Frequency, verb:
 
 
 def _plain(value: Any) -> Any:
-    """Return ``value`` as a JSON-ready value (Decimal and Fraction to float)."""
+    """Return ``value`` as a JSON-ready value (Decimal and Fraction to float, dates to ISO)."""
     if isinstance(value, (Decimal, Fraction)):
         return float(value)
+    if isinstance(value, (date, pd.Timestamp)):
+        return value.isoformat()[:10]
     if isinstance(value, dict):
         return {k: _plain(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
@@ -144,12 +231,27 @@ def _figures_table(title: str, rows: list[tuple[str, str]]) -> Table:
 
 
 def _terms_rows(loan: Loan) -> list[tuple[str, str]]:
-    return [
+    rows = [
         ("principal", _money(loan.principal)),
         ("annual rate", f"{(loan.annual_rate * 100).normalize():f} %"),
         ("frequency", loan.frequency.value),
         ("timing", loan.timing.value),
     ]
+    if loan.compounding is not None:
+        rows.append(("compounding", str(loan.compounding)))
+    if loan.dated:
+        summary = loan.summary()
+        rows += [
+            ("start", f"{loan.start}"),
+            ("first payment", f"{summary['first_payment_date']}"),
+            ("day count", loan.day_count.value),
+            ("maturity", f"{summary['maturity_date']}"),
+        ]
+        if summary["odd_days_interest"]:
+            rows.append(
+                (f"odd-days interest ({loan.odd_days.value})", _money(summary["odd_days_interest"]))
+            )
+    return rows
 
 
 def _totals_rows(figures: dict[str, Any]) -> list[tuple[str, str]]:
@@ -194,8 +296,10 @@ def _loan(
     rounding: str,
     interest_rounding: str,
     verb: str,
+    dated: dict[str, Any] | None = None,
 ) -> Loan:
     return Loan(
+        **(dated or {}),
         principal=parse_amount(_require(principal, "--principal", verb), "principal"),
         annual_rate=parse_rate(_require(rate, "--rate", verb), "rate", percent=True),
         periods=periods,
@@ -224,6 +328,16 @@ def payment(
     advance: Advance = False,
     rounding: RoundingOpt = "half-up",
     interest_rounding: InterestRounding = "half-up",
+    start: Start = None,
+    first_payment: FirstPayment = None,
+    day_count: DayCountOpt = "equal",
+    compounding: CompoundingOpt = None,
+    business_days: BusinessDays = "none",
+    holidays: Holidays = None,
+    odd_days: OddDaysOpt = "accrue",
+    end_of_month: EndOfMonth = False,
+    interest_dates: InterestDatesOpt = "unadjusted",
+    semimonthly_days: SemimonthlyDays = "1,15",
     as_json: AsJson = False,
 ) -> None:
     """The level payment for a principal, rate and term."""
@@ -240,6 +354,18 @@ def payment(
             rounding=rounding,
             interest_rounding=interest_rounding,
             verb="payment",
+            dated=_dated(
+                start,
+                first_payment,
+                day_count,
+                compounding,
+                business_days,
+                holidays,
+                odd_days,
+                end_of_month,
+                interest_dates,
+                semimonthly_days,
+            ),
         )
         figures = quote_payment(loan)
     if as_json:
@@ -262,6 +388,16 @@ def term(
     balloon: Balloon = "0",
     advance: Advance = False,
     interest_rounding: InterestRounding = "half-up",
+    start: Start = None,
+    first_payment: FirstPayment = None,
+    day_count: DayCountOpt = "equal",
+    compounding: CompoundingOpt = None,
+    business_days: BusinessDays = "none",
+    holidays: Holidays = None,
+    odd_days: OddDaysOpt = "accrue",
+    end_of_month: EndOfMonth = False,
+    interest_dates: InterestDatesOpt = "unadjusted",
+    semimonthly_days: SemimonthlyDays = "1,15",
     as_json: AsJson = False,
 ) -> None:
     """The number of payments (and the smaller final payment) a payment implies."""
@@ -277,6 +413,18 @@ def term(
             rounding="half-up",
             interest_rounding=interest_rounding,
             verb="term",
+            dated=_dated(
+                start,
+                first_payment,
+                day_count,
+                compounding,
+                business_days,
+                holidays,
+                odd_days,
+                end_of_month,
+                interest_dates,
+                semimonthly_days,
+            ),
         )
         figures = quote_term(loan)
     if as_json:
@@ -398,6 +546,16 @@ def schedule(
     interest_rounding: InterestRounding = "half-up",
     out_file: OutFile = None,
     force: Force = False,
+    start: Start = None,
+    first_payment: FirstPayment = None,
+    day_count: DayCountOpt = "equal",
+    compounding: CompoundingOpt = None,
+    business_days: BusinessDays = "none",
+    holidays: Holidays = None,
+    odd_days: OddDaysOpt = "accrue",
+    end_of_month: EndOfMonth = False,
+    interest_dates: InterestDatesOpt = "unadjusted",
+    semimonthly_days: SemimonthlyDays = "1,15",
     as_json: AsJson = False,
 ) -> None:
     """One loan's schedule to the cent, with its reconciliation against the closed form."""
@@ -419,6 +577,18 @@ def schedule(
             rounding=rounding,
             interest_rounding=interest_rounding,
             verb="schedule",
+            dated=_dated(
+                start,
+                first_payment,
+                day_count,
+                compounding,
+                business_days,
+                holidays,
+                odd_days,
+                end_of_month,
+                interest_dates,
+                semimonthly_days,
+            ),
         )
         frame = loan.schedule()
         figures = quote_payment(loan)
@@ -435,7 +605,12 @@ def schedule(
         if written is not None:
             payload["written"] = str(written)
         else:
-            records = frame.drop(columns=["due_date"]).to_dict(orient="records")
+            shown = frame.copy()
+            if shown["due_date"].notna().any():
+                shown["due_date"] = shown["due_date"].dt.strftime("%Y-%m-%d")
+            else:
+                shown = shown.drop(columns=["due_date"])
+            records = shown.to_dict(orient="records")
             payload["schedule"] = records
         _emit_json(payload)
         return
@@ -452,15 +627,25 @@ def schedule(
     _caution()
 
 
+def _cell(column: str, value: Any) -> str:
+    if column == "period" or column == "days":
+        return f"{int(value):,}"
+    if column == "due_date":
+        return "" if value is None or value != value else f"{value:%Y-%m-%d}"
+    if column == "rate":
+        return f"{value * 100:.4f} %"
+    return f"{value:,.2f}"
+
+
 def _schedule_table(frame: Any) -> Table:
     table = Table(title="Schedule", title_justify="left", header_style="bold cyan")
-    money_columns = [c for c in frame.columns if c not in ("period", "due_date")]
-    table.add_column("period", justify="right")
-    for column in money_columns:
+    dated = bool(frame["due_date"].notna().any())
+    columns = [c for c in frame.columns if c != "due_date" or dated]
+    for column in columns:
         table.add_column(column.replace("_", " "), justify="right")
     for record in frame.itertuples(index=False):
         values = record._asdict()
-        table.add_row(str(values["period"]), *(f"{values[c]:,.2f}" for c in money_columns))
+        table.add_row(*(_cell(c, values[c]) for c in columns))
     return table
 
 

@@ -16,7 +16,7 @@ from fractions import Fraction
 import numpy as np
 import numpy.typing as npt
 
-from amort import recurrence
+from amort import recurrence, variable
 from amort.money import Rounding, round_fraction, round_ratio
 
 IntArray = npt.NDArray[np.int64]
@@ -97,3 +97,56 @@ def level_payment_cents(
 def interest_cents(balance_cents: int, rate: Fraction, mode: Rounding) -> int:
     """Return ``balance x rate`` rounded to the cent (scalar reference of the engine's rule)."""
     return round_ratio(balance_cents * rate.numerator, rate.denominator, mode)
+
+
+def level_payment_fraction_variable(
+    principal_cents: int,
+    rates: list[Fraction],
+    balloon_cents: int = 0,
+    advance: bool = False,
+) -> Fraction:
+    """Return the exact level payment, in cents, when period k earns ``rates[k-1]``.
+
+    With ``T_k = (1 + i_{k+1}) ... (1 + i_N)`` (``T_N = 1``), multiplying
+    ``P = (B_0 - F v_N) / sum w_k`` through by ``1 / v_N`` gives
+    ``P = (B_0 T_0 - F) / sum_{k=1..N} T_k`` in arrears and
+    ``/ sum_{k=0..N-1} T_k`` in advance.
+
+    >>> level_payment_fraction_variable(10_000_000, [Fraction(1, 200)] * 360) == (
+    ...     level_payment_fraction(10_000_000, Fraction(1, 200), 360))
+    True
+    """
+    tails = [Fraction(1)]
+    for rate in reversed(rates):
+        tails.append(tails[-1] * (1 + rate))
+    tails.reverse()  # tails[k] = T_k, k = 0..N
+    weights = sum(tails[:-1], Fraction(0)) if advance else sum(tails[1:], Fraction(0))
+    return (principal_cents * tails[0] - balloon_cents) / weights
+
+
+def level_payment_cents_variable(
+    principal_cents: int,
+    rates: list[Fraction],
+    balloon_cents: int,
+    advance: bool,
+    mode: Rounding,
+) -> int:
+    """Return the level payment in whole cents for per-period rates, rounded from its exact value.
+
+    The float closed form (:func:`amort.variable.payment`) decides the cent
+    unless it lies near a rounding boundary; then the exact fraction does.
+    """
+    floats = np.asarray([float(r) for r in rates], dtype=np.float64)[:, None]
+    approx = float(variable.payment(principal_cents, floats, balloon_cents, advance)[0])
+    if np.isfinite(approx):
+        if mode.half_unit:
+            frac = approx - np.floor(approx)
+            near = abs(frac - 0.5) <= _TRUST * max(1.0, approx)
+            cents = int(np.floor(approx + 0.5))
+        else:
+            near = abs(approx - round(approx)) <= _TRUST * max(1.0, approx)
+            cents = int(np.ceil(approx)) if mode is Rounding.UP else int(np.floor(approx))
+        if not near:
+            return cents
+    exact = level_payment_fraction_variable(principal_cents, rates, balloon_cents, advance)
+    return round_fraction(exact, mode)

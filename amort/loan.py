@@ -14,6 +14,7 @@ import dataclasses
 import functools
 import math
 from dataclasses import dataclass
+from datetime import date
 from decimal import Decimal
 from fractions import Fraction
 from typing import Any
@@ -21,10 +22,13 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from amort import solve
+from amort import calendar, solve
+from amort.calendar import BusinessDay
 from amort.conventions import Frequency, Timing
+from amort.dated import DatedPlan, InterestDates, OddDays, plan
+from amort.daycount import DayCount
 from amort.errors import InvalidTerms, NoSolution, describe
-from amort.exact import level_payment_cents
+from amort.exact import level_payment_cents, level_payment_cents_variable
 from amort.frames import schedule_frame
 from amort.money import (
     Rounding,
@@ -35,6 +39,7 @@ from amort.money import (
     round_ratio,
     to_cents,
 )
+from amort.rates import Compounding, periodic_rate
 from amort.reconcile import reconcile
 from amort.schedule import BatchTerms, CentsTable, run
 
@@ -179,6 +184,16 @@ class Loan:
     fixed_payment: Decimal | None = None
     rounding: Rounding = Rounding.HALF_UP
     interest_rounding: Rounding = Rounding.HALF_UP
+    start: date | None = None
+    first_payment: date | None = None
+    day_count: DayCount = DayCount.EQUAL
+    compounding: Compounding | None = None
+    business_days: BusinessDay = BusinessDay.NONE
+    holidays: str | tuple[str, ...] | None = None
+    end_of_month: bool = False
+    semimonthly_days: tuple[int, int] = (1, 15)
+    odd_days: OddDays = OddDays.ACCRUE
+    interest_dates: InterestDates = InterestDates.UNADJUSTED
 
     def __post_init__(self) -> None:
         set_ = functools.partial(object.__setattr__, self)
@@ -198,6 +213,7 @@ class Loan:
             set_("periods", parse_periods(self.periods))
         elif self.fixed_payment is None:
             raise InvalidTerms("give 'periods' (the number of payments) or 'fixed_payment'")
+        self._normalise_dates(set_)
         per_year = self.frequency.per_year
         if self.annual_rate > per_year:
             raise InvalidTerms(
@@ -210,10 +226,119 @@ class Loan:
 
     # -- derived terms -----------------------------------------------------------------
 
+    def _normalise_dates(self, set_: Any) -> None:
+        set_("day_count", DayCount.parse(self.day_count))
+        set_("business_days", BusinessDay.parse(self.business_days, "business_days"))
+        set_("odd_days", OddDays.parse(self.odd_days))
+        set_("interest_dates", InterestDates.parse(self.interest_dates))
+        set_("semimonthly_days", calendar.parse_semimonthly_days(self.semimonthly_days))
+        if not isinstance(self.end_of_month, bool):
+            raise InvalidTerms(f"'end_of_month' must be true or false (got {self.end_of_month!r})")
+        if self.compounding is not None:
+            set_("compounding", Compounding.parse(self.compounding))
+        if self.holidays is not None:
+            calendar.parse_holiday_calendar(self.holidays, "holidays")
+        start = None if self.start is None else calendar.parse_date(self.start, "start")
+        first = (
+            None
+            if self.first_payment is None
+            else calendar.parse_date(self.first_payment, "first_payment")
+        )
+        eom, pair = self.end_of_month, self.semimonthly_days
+        if start is not None and first is None:
+            if self.advance:
+                first = start
+            else:
+                first = calendar.due_dates(
+                    start, 2, self.frequency, end_of_month=eom, semimonthly_days=pair
+                ).unadjusted[1]
+        elif first is not None and start is None:
+            start = (
+                first
+                if self.advance
+                else calendar.regular_period_start(
+                    first, self.frequency, end_of_month=eom, semimonthly_days=pair
+                )
+            )
+        set_("start", start)
+        set_("first_payment", first)
+        if start is None:
+            if self.day_count is not DayCount.EQUAL:
+                raise InvalidTerms(
+                    f"'day_count' {self.day_count.value!r} needs dates: give 'start' "
+                    "(the disbursement date) and 'first_payment'"
+                )
+            if self.business_days is not BusinessDay.NONE or self.holidays is not None:
+                raise InvalidTerms("business-day adjustment needs dates: give 'start'")
+        if self.compounding is not None and self.day_count is not DayCount.EQUAL:
+            raise InvalidTerms(
+                f"'compounding' applies under the 'equal' day count; under "
+                f"{self.day_count.value!r} each period earns simple interest for its days"
+            )
+
+    @property
+    def dated(self) -> bool:
+        """True when the loan has dates (a disbursement and a first payment date)."""
+        return self.start is not None
+
     @property
     def periodic_rate(self) -> Fraction:
-        """The exact periodic rate: annual rate / payments a year, as a fraction."""
-        return Fraction(self.annual_rate) / self.frequency.per_year
+        """The exact rate of a regular period: annual rate / payments a year, or the
+        compounded equivalent ``(1 + j/m)^(m/p) - 1`` (:func:`amort.rates.periodic_rate`;
+        an irrational rate is the nearest double, taken exactly)."""
+        return periodic_rate(Fraction(self.annual_rate), self.frequency, self.compounding).fraction
+
+    def _plan_for(self, periods: int) -> DatedPlan:
+        cache = self.__dict__.setdefault("_plans", {})
+        if periods not in cache:
+            assert self.start is not None and self.first_payment is not None
+            cache[periods] = plan(
+                start=self.start,
+                first_payment=self.first_payment,
+                periods=periods,
+                frequency=self.frequency,
+                annual_rate=Fraction(self.annual_rate),
+                periodic_rate=self.periodic_rate,
+                day_count=self.day_count,
+                advance=self.advance,
+                odd_days=self.odd_days,
+                end_of_month=self.end_of_month,
+                semimonthly_days=self.semimonthly_days,
+                business_days=self.business_days,
+                holidays=self.holidays,
+                interest_dates=self.interest_dates,
+            )
+        plan_: DatedPlan = cache[periods]
+        return plan_
+
+    @property
+    def _odd_cents(self) -> int:
+        """Odd-days interest of a long first period that is capitalised or paid separately."""
+        if not self.dated:
+            return 0
+        odd = self._plan_for(1).odd_rate
+        if odd == 0:
+            return 0
+        return round_ratio(
+            to_cents(self.principal) * odd.numerator, odd.denominator, self.interest_rounding
+        )
+
+    @property
+    def _capitalised_cents(self) -> int:
+        separate = self.odd_days is OddDays.SEPARATE
+        return 0 if separate else self._odd_cents
+
+    @property
+    def _separate_cents(self) -> int:
+        return self._odd_cents if self.odd_days is OddDays.SEPARATE else 0
+
+    def _rates_for(self, periods: int) -> list[Fraction] | None:
+        """Each period's exact rate, or None when every period earns the periodic rate."""
+        if not self.dated:
+            return None
+        rates = list(self._plan_for(periods).rates)
+        regular = self.periodic_rate
+        return None if all(r == regular for r in rates) else rates
 
     @property
     def advance(self) -> bool:
@@ -241,8 +366,9 @@ class Loan:
             )
 
     def _first_interest_cents(self, payment_cents: int) -> int:
-        rate = self.periodic_rate
-        base = to_cents(self.principal) - (payment_cents if self.advance else 0)
+        rate = self._plan_for(1).rates[0] if self.dated else self.periodic_rate
+        base = to_cents(self.principal) + self._capitalised_cents
+        base -= payment_cents if self.advance else 0
         return round_ratio(max(base, 0) * rate.numerator, rate.denominator, self.interest_rounding)
 
     def _check_payment_covers_interest(self) -> None:
@@ -275,11 +401,20 @@ class Loan:
         if self.fixed_payment is not None:
             return to_cents(self.fixed_payment)
         assert self.periods is not None
+        rates = self._rates_for(self.periods)
+        if rates is not None:
+            return level_payment_cents_variable(
+                to_cents(self.principal) + self._capitalised_cents,
+                rates,
+                to_cents(self.balloon),
+                self.advance,
+                self.rounding,
+            )
         rate = self.periodic_rate
-        one = lambda v: np.array([v], dtype=np.int64)  # noqa: E731
+        one = lambda v: np.array([v], dtype=object if rate.denominator >= 2**62 else np.int64)  # noqa: E731
         return int(
             level_payment_cents(
-                one(to_cents(self.principal)),
+                one(to_cents(self.principal) + self._capitalised_cents),
                 one(rate.numerator),
                 one(rate.denominator),
                 one(self.periods),
@@ -334,19 +469,49 @@ class Loan:
                 horizon = min(horizon, int(term.periods) + 2)
         return min(horizon, solve.MAX_PERIODS + 1)
 
-    def batch_terms(self) -> BatchTerms:
-        """Return this loan as a batch of one for the schedule engine."""
+    def batch_terms(self, horizon: int | None = None) -> BatchTerms:
+        """Return this loan as a batch of one for the schedule engine.
+
+        The engine's principal includes capitalised odd-days interest; a dated
+        loan whose periods earn different rates carries one rate a period.
+        """
+        horizon = self._engine_horizon if horizon is None else horizon
         rate = self.periodic_rate
-        one = lambda v: np.array([v], dtype=np.int64)  # noqa: E731
+        rates = self._rates_for(horizon)
+        big = rate.denominator >= 2**62 or rate.numerator >= 2**62
+        one = lambda v: np.array([v], dtype=object if big else np.int64)  # noqa: E731
+        per_num = per_den = None
+        if rates is not None:
+            wide = max(max(r.numerator, r.denominator) for r in rates) >= 2**62
+            kind: Any = object if wide else np.int64
+            per_num = np.array([[r.numerator] for r in rates], dtype=kind)
+            per_den = np.array([[r.denominator] for r in rates], dtype=kind)
         return BatchTerms(
-            principal=one(to_cents(self.principal)),
+            principal=np.array([to_cents(self.principal) + self._capitalised_cents]),
             rate_num=one(rate.numerator),
             rate_den=one(rate.denominator),
-            payment=one(self._level_cents),
-            periods=one(self._horizon),
-            balloon=one(to_cents(self.balloon)),
+            payment=np.array([self._level_cents]),
+            periods=np.array([horizon]),
+            balloon=np.array([to_cents(self.balloon)]),
             advance=np.array([self.advance]),
+            period_rate_num=per_num,
+            period_rate_den=per_den,
         )
+
+    @functools.cached_property
+    def _engine_horizon(self) -> int:
+        """The horizon the schedule runs to; an open dated term doubles until it closes."""
+        horizon = self._horizon
+        if self.periods is not None or not self.dated:
+            return horizon
+        while True:
+            table = run(self.batch_terms(horizon), self.interest_rounding)
+            closed_early = int(table.rows[0]) < horizon
+            if closed_early or int(table.final_payment[0]) <= self._level_cents:
+                return horizon
+            if horizon > solve.MAX_PERIODS:
+                return horizon
+            horizon = min(2 * horizon, solve.MAX_PERIODS + 1)
 
     @functools.cached_property
     def _table(self) -> CentsTable:
@@ -371,7 +536,24 @@ class Loan:
         Columns: ``period, due_date, opening_balance, payment, interest, principal,
         closing_balance``, then ``balloon`` when the loan has one.
         """
-        return schedule_frame(self._table)
+        frame = schedule_frame(self._table)
+        if not self.dated:
+            return frame
+        rows = len(frame)
+        plan_ = self._plan_for(self._engine_horizon)
+        frame["due_date"] = pd.to_datetime(pd.Series(plan_.due[:rows])).astype("datetime64[ns]")
+        frame["days"] = np.asarray(plan_.days[:rows], dtype=np.int64)
+        frame["rate"] = np.asarray([float(r) for r in plan_.rates[:rows]], dtype=np.float64)
+        if self._capitalised_cents:
+            capitalised = np.zeros(rows)
+            capitalised[0] = self._capitalised_cents / 100
+            frame["capitalised"] = capitalised
+            frame.loc[0, "opening_balance"] = to_cents(self.principal) / 100
+        if self._separate_cents:
+            separate = np.zeros(rows)
+            separate[0] = self._separate_cents / 100
+            frame["odd_days_interest"] = separate
+        return frame
 
     def summary(self) -> dict[str, Any]:
         """Return the key figures: payment, number of payments, final payment, totals, maturity.
@@ -381,6 +563,14 @@ class Loan:
         table = self._table
         total_payments = from_cents(int(table.payment.sum()))
         balloon_paid = from_cents(int(table.balloon_paid[0]))
+        odd = from_cents(self._odd_cents)
+        separate = from_cents(self._separate_cents)
+        maturity = None
+        first_due = None
+        if self.dated:
+            due = self._plan_for(self._engine_horizon).due
+            maturity = due[self.number_of_payments - 1]
+            first_due = due[0]
         return {
             "principal": self.principal,
             "annual_rate": self.annual_rate,
@@ -391,11 +581,16 @@ class Loan:
             "number_of_payments": self.number_of_payments,
             "final_payment": from_cents(int(table.final_payment[0])),
             "balloon": balloon_paid,
-            "total_interest": from_cents(int(table.interest.sum())),
+            "total_interest": from_cents(int(table.interest.sum())) + odd,
             "total_principal": from_cents(int(table.principal.sum())),
-            "total_paid": total_payments + balloon_paid,
+            "total_paid": total_payments + balloon_paid + separate,
+            "odd_days_interest": odd,
             "maturity_period": self.number_of_payments,
-            "maturity_date": None,
+            "maturity_date": maturity,
+            "start": self.start,
+            "first_payment_date": first_due,
+            "day_count": self.day_count.value,
+            "compounding": None if self.compounding is None else self.compounding.name,
             "rounding": self.rounding.value,
             "interest_rounding": self.interest_rounding.value,
         }

@@ -38,6 +38,20 @@ def _figures(loan: Loan) -> dict[str, Any]:
         "rounding": loan.rounding.value,
         "interest_rounding": loan.interest_rounding.value,
         "reconciled": check.passed,
+        **(
+            {
+                key: summary[key]
+                for key in (
+                    "start",
+                    "first_payment_date",
+                    "maturity_date",
+                    "day_count",
+                    "odd_days_interest",
+                )
+            }
+            if loan.dated
+            else {}
+        ),
     }
 
 

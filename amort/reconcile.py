@@ -26,13 +26,14 @@ the bound is infinite and says nothing; such rows pass.
 
 from __future__ import annotations
 
+from fractions import Fraction
 from typing import Any
 
 import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
-from amort import recurrence
+from amort import recurrence, variable
 from amort.money import Rounding
 from amort.schedule import BatchTerms, CentsTable
 
@@ -72,7 +73,6 @@ def reconcile(
     loans = terms.size
     rows = table.rows
     offsets = table.offsets
-    i_loan = terms.rate_num.astype(np.float64) / terms.rate_den.astype(np.float64)
     adv_loan = terms.advance
     level = terms.payment.astype(np.float64)
 
@@ -82,16 +82,9 @@ def reconcile(
     # says nothing there, so such rows (and such a loan's adjustment) pass
     # with an infinite bound rather than fail on float overflow.
     idx = table.loan
-    k = table.period.astype(np.float64)
-    i_row = i_loan[idx]
     with np.errstate(over="ignore", invalid="ignore"):
-        exact = recurrence.balance(
-            terms.principal.astype(np.float64)[idx], i_row, level[idx], k, adv_loan[idx]
-        )
-        scale = recurrence.balance_scale(
-            terms.principal.astype(np.float64)[idx], i_row, level[idx], k, adv_loan[idx]
-        )
-        bound_row = u * recurrence.accumulation_factor(i_row, k) + FLOAT_ALLOWANCE * scale
+        exact, scale, accumulated = _closed_form_rows(terms, table)
+        bound_row = u * accumulated + FLOAT_ALLOWANCE * scale
         gap = np.abs(table.closing.astype(np.float64) - exact)
     vacuous = ~np.isfinite(bound_row)
     last_row = np.zeros(table.period.size, dtype=bool)
@@ -106,18 +99,11 @@ def reconcile(
     bound_shown = np.where(last_row, 0.0, np.where(vacuous, np.inf, bound_row))
     gap_bound = _per_loan(np.maximum, bound_shown, offsets, rows)
 
-    n = rows.astype(np.float64)
     f = terms.balloon.astype(np.float64)
-    a = 1.0 + i_loan
     adjustment = table.final_payment.astype(np.float64) - level
     with np.errstate(over="ignore", invalid="ignore"):
-        x_n = recurrence.balance(terms.principal.astype(np.float64), i_loan, level, n, adv_loan)
+        x_n, s_n, s_prev, scale_n, a = _closed_form_final(terms, rows)
         expected = np.where(adv_loan, (x_n - f) / a, x_n - f)
-        s_n = recurrence.accumulation_factor(i_loan, n)
-        s_prev = recurrence.accumulation_factor(i_loan, np.maximum(n - 1, 0))
-        scale_n = recurrence.balance_scale(
-            terms.principal.astype(np.float64), i_loan, level, n, adv_loan
-        )
         adj_bound = np.where(adv_loan, u * s_prev + 1.5, u * s_n) + FLOAT_ALLOWANCE * scale_n
         adjustment_ok = ~np.isfinite(adj_bound) | (np.abs(adjustment - expected) <= adj_bound)
 
@@ -168,6 +154,74 @@ def reconcile(
             "passed": passed,
         },
         columns=RECONCILIATION_COLUMNS,
+    )
+
+
+def _float_rates(terms: BatchTerms) -> FloatArray:
+    """Return each period's rate as float64, ``(max periods, loans)`` (dated batches)."""
+    assert terms.period_rate_num is not None and terms.period_rate_den is not None
+    num, den = terms.period_rate_num, terms.period_rate_den
+    if num.dtype == object or den.dtype == object:
+        flat = [
+            float(Fraction(int(a), int(b))) for a, b in zip(num.ravel(), den.ravel(), strict=True)
+        ]
+        return np.asarray(flat, dtype=np.float64).reshape(num.shape)
+    return num.astype(np.float64) / den.astype(np.float64)
+
+
+def _loan_rates(terms: BatchTerms) -> FloatArray:
+    num, den = terms.rate_num, terms.rate_den
+    if num.dtype == object or den.dtype == object or terms.needs_big_integers:
+        pairs = zip(num.tolist(), den.tolist(), strict=True)
+        return np.asarray([float(Fraction(int(a), int(b))) for a, b in pairs], dtype=np.float64)
+    return num.astype(np.float64) / den.astype(np.float64)
+
+
+def _closed_form_rows(
+    terms: BatchTerms, table: CentsTable
+) -> tuple[FloatArray, FloatArray, FloatArray]:
+    """Return, for every row, the closed-form balance, its scale and ``s_k`` (cents)."""
+    idx = table.loan
+    b0 = terms.principal.astype(np.float64)
+    level = terms.payment.astype(np.float64)
+    if terms.varies:
+        rates = _float_rates(terms)
+        at = (table.period - 1, idx)
+        exact = variable.balances(b0, rates, level, terms.advance)[at]
+        scale = variable.balance_scales(b0, rates, level, terms.advance)[at]
+        return exact, scale, variable.accumulation_factors(rates)[at]
+    i_row = _loan_rates(terms)[idx]
+    k = table.period.astype(np.float64)
+    adv = terms.advance[idx]
+    exact = recurrence.balance(b0[idx], i_row, level[idx], k, adv)
+    scale = recurrence.balance_scale(b0[idx], i_row, level[idx], k, adv)
+    return exact, scale, recurrence.accumulation_factor(i_row, k)
+
+
+def _closed_form_final(
+    terms: BatchTerms, rows: npt.NDArray[np.int64]
+) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray, FloatArray]:
+    """Return per loan: ``x_n``, ``s_n``, ``s_{n-1}``, the scale and ``a_n`` at its last row."""
+    b0 = terms.principal.astype(np.float64)
+    level = terms.payment.astype(np.float64)
+    if terms.varies:
+        rates = _float_rates(terms)
+        cols = np.arange(terms.size)
+        last = np.maximum(rows - 1, 0)
+        x = variable.balances(b0, rates, level, terms.advance)
+        acc = variable.accumulation_factors(rates)
+        sc = variable.balance_scales(b0, rates, level, terms.advance)
+        s_prev = np.where(rows >= 2, acc[np.maximum(rows - 2, 0), cols], 0.0)
+        return x[last, cols], acc[last, cols], s_prev, sc[last, cols], 1.0 + rates[last, cols]
+    i = _loan_rates(terms)
+    n = rows.astype(np.float64)
+    adv = terms.advance
+    return (
+        recurrence.balance(b0, i, level, n, adv),
+        recurrence.accumulation_factor(i, n),
+        recurrence.accumulation_factor(i, np.maximum(n - 1, 0)),
+        recurrence.balance_scale(b0, i, level, n, adv),
+        1.0 + i,
     )
 
 

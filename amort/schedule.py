@@ -57,7 +57,7 @@ def run(terms: BatchTerms, interest_rounding: Rounding = Rounding.HALF_UP) -> Ce
     >>> int(table.rows[0]), int(table.final_payment[0]), int(table.closing[-1])
     (12, 86070, 0)
     """
-    table = run_fast(terms, interest_rounding)
+    table = None if terms.varies else run_fast(terms, interest_rounding)
     if table is None:
         table = _run_general(terms, interest_rounding)
     return table
@@ -76,6 +76,8 @@ def _run_general(terms: BatchTerms, interest_rounding: Rounding) -> CentsTable:
     last = terms.periods
     advance = terms.advance
     remainder = advance_remainder(terms, interest_rounding, dtype)
+    varying_num = None if terms.period_rate_num is None else terms.period_rate_num.astype(dtype)
+    varying_den = None if terms.period_rate_den is None else terms.period_rate_den.astype(dtype)
 
     # Period-major storage: step k writes one contiguous row of each array.
     opening = np.zeros((horizon, loans), dtype=dtype)
@@ -91,7 +93,11 @@ def _run_general(terms: BatchTerms, interest_rounding: Rounding) -> CentsTable:
         if live.size == 0:
             break
         at = slice(None) if everyone else live
-        p, f, n_, d_ = level[at], balloon[at], num[at], den[at]
+        p, f = level[at], balloon[at]
+        if varying_num is not None and varying_den is not None:
+            n_, d_ = varying_num[k - 1, at], varying_den[k - 1, at]
+        else:
+            n_, d_ = num[at], den[at]
         final = last[at] == k
         # In arrears the period's interest is earned on the opening balance.
         intr = interest_cents(balance, n_, d_, interest_rounding)

@@ -39,9 +39,9 @@ def discount_factors(rates: npt.ArrayLike) -> FloatArray:
 
 
 def _payment_weights(rates: npt.ArrayLike, advance: npt.ArrayLike) -> FloatArray:
-    """Return the present-value weight of each payment: ``v_k`` in arrears, ``v_{k-1}`` in advance."""
+    """Return each payment's present-value weight: ``v_k`` in arrears, ``v_{k-1}`` in advance."""
     v = discount_factors(rates)
-    shifted = np.vstack([np.ones((1,) + v.shape[1:]), v[:-1]])
+    shifted = np.vstack([np.ones((1, *v.shape[1:])), v[:-1]])
     adv = np.asarray(advance, dtype=bool)
     return np.where(adv, shifted, v)
 

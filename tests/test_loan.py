@@ -256,8 +256,13 @@ def test_summary_keys_and_values() -> None:
         "total_interest",
         "total_principal",
         "total_paid",
+        "odd_days_interest",
         "maturity_period",
         "maturity_date",
+        "start",
+        "first_payment_date",
+        "day_count",
+        "compounding",
         "rounding",
         "interest_rounding",
     ]
