@@ -10,22 +10,31 @@ Decimal('1580.17')
 from __future__ import annotations
 
 from amort import solve
+from amort.calendar import BusinessDay
 from amort.caution import CAUTION
 from amort.conventions import Frequency, Timing
+from amort.dated import InterestDates, OddDays
+from amort.daycount import DayCount
 from amort.errors import AmortError, ExportError, InvalidTerms, NoSolution
 from amort.loan import Loan, Reconciliation
 from amort.money import Rounding
+from amort.rates import Compounding
 
 __version__ = "0.1.0"
 
 __all__ = [
     "CAUTION",
     "AmortError",
+    "BusinessDay",
+    "Compounding",
+    "DayCount",
     "ExportError",
     "Frequency",
+    "InterestDates",
     "InvalidTerms",
     "Loan",
     "NoSolution",
+    "OddDays",
     "Reconciliation",
     "Rounding",
     "Timing",

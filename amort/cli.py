@@ -24,7 +24,7 @@ import typer
 from rich.console import Console
 from rich.table import Table
 
-from amort import __version__
+from amort import __version__, rates
 from amort.caution import CAUTION
 from amort.conventions import Frequency, Timing
 from amort.daycount import DayCount
@@ -33,6 +33,7 @@ from amort.io.csv import write_schedule_csv
 from amort.loan import Loan, parse_periods
 from amort.money import Rounding, parse_amount, parse_number, parse_rate
 from amort.quote import quote_payment, quote_principal, quote_rate, quote_term
+from amort.rates import Compounding
 
 app = typer.Typer(
     name="amort",
@@ -450,9 +451,36 @@ def rate(
     frequency: FrequencyOpt = "monthly",
     balloon: Balloon = "0",
     advance: Advance = False,
+    convert: Annotated[
+        bool,
+        typer.Option(
+            "--convert", help="Convert --rate between nominal, effective and continuous forms."
+        ),
+    ] = False,
+    rate_given: Annotated[
+        str | None, typer.Option("--rate", help="With --convert: the rate to convert, percent.")
+    ] = None,
+    source: Annotated[
+        str, typer.Option("--from", help="With --convert: nominal, effective or continuous.")
+    ] = "nominal",
+    compounding: CompoundingOpt = None,
+    target: Annotated[
+        str, typer.Option("--to", help="With --convert: nominal, effective or continuous.")
+    ] = "effective",
+    target_compounding: Annotated[
+        str | None,
+        typer.Option("--to-compounding", help="With --convert --to nominal: compoundings a year."),
+    ] = None,
     as_json: AsJson = False,
 ) -> None:
-    """The nominal annual rate at which a payment repays a principal over a term."""
+    """The nominal annual rate at which a payment repays a principal over a term.
+
+    With --convert: the same rate as nominal (at a compounding), effective annual and
+    continuous, e.g. amort rate --convert --rate 6 --compounding semiannual --to effective.
+    """
+    if convert:
+        _convert_rate(rate_given, source, compounding, target, target_compounding, as_json)
+        return
     with _errors():
         freq = Frequency.parse(frequency)
         figures = quote_rate(
@@ -462,6 +490,7 @@ def rate(
             frequency=freq,
             balloon=parse_amount(balloon, "balloon", allow_zero=True),
             timing=Timing.ADVANCE if advance else Timing.ARREARS,
+            compounding=None if compounding is None else Compounding.parse(compounding),
         )
     if as_json:
         _emit_json(figures)
@@ -471,12 +500,51 @@ def rate(
         ("payment", _money(figures["payment"])),
         ("number of payments", f"{figures['number_of_payments']:,}"),
         ("frequency", figures["frequency"]),
-        ("annual rate (nominal)", f"{figures['annual_rate_percent']:.6f} %"),
+        (
+            f"annual rate (nominal, {figures['compounding'] or 'compounded each period'})",
+            f"{figures['annual_rate_percent']:.6f} %",
+        ),
         ("periodic rate", f"{figures['periodic_rate'] * 100:.8f} %"),
         ("effective annual rate", f"{figures['effective_annual_rate'] * 100:.6f} %"),
         ("payment at that rate (check)", _money(figures["payment_at_rate"])),
     ]
     out.print(_figures_table("Implied rate", rows))
+    _caution()
+
+
+def _convert_rate(
+    rate_given: str | None,
+    source: str,
+    compounding: str | None,
+    target: str,
+    target_compounding: str | None,
+    as_json: bool,
+) -> None:
+    with _errors():
+        figures = rates.convert(
+            _require(rate_given, "--rate", "rate --convert"),
+            source=source,
+            source_compounding=compounding,
+            target=target,
+            target_compounding=target_compounding,
+            percent=True,
+        )
+    if as_json:
+        _emit_json(figures)
+        return
+    percent = lambda x: f"{x * 100:.10f} %"  # noqa: E731
+    rows = [
+        (
+            f"given ({figures['source']}, {figures['source_compounding']})",
+            percent(figures["source_rate"]),
+        ),
+        (f"as {figures['target']} ({figures['target_compounding']})", percent(figures["rate"])),
+        (f"nominal ({figures['nominal_compounding']})", percent(figures["nominal"])),
+        ("effective annual", percent(figures["effective_annual"])),
+        ("continuous", percent(figures["continuous"])),
+        ("exact", "yes" if figures["exact"] else "no (nearest double of an irrational rate)"),
+    ]
+    out.print(_figures_table("Rate conversion", rows))
     _caution()
 
 

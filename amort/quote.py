@@ -18,6 +18,7 @@ from amort.conventions import Frequency, Timing
 from amort.errors import NoSolution
 from amort.loan import Loan
 from amort.money import CENT, Rounding
+from amort.rates import Compounding
 
 
 def _figures(loan: Loan) -> dict[str, Any]:
@@ -94,8 +95,13 @@ def quote_rate(
     frequency: Frequency = Frequency.MONTHLY,
     balloon: Decimal = Decimal(0),
     timing: Timing = Timing.ARREARS,
+    compounding: Compounding | None = None,
 ) -> dict[str, Any]:
     """Return the nominal annual rate at which ``periods`` payments repay ``principal``.
+
+    With ``compounding`` (m a year) the nominal rate is the one that,
+    compounded m times a year, gives that periodic rate:
+    ``j = m ((1 + i)^(p/m) - 1)``.
 
     The periodic rate solves ``P a_N(i) + F v^N(i) = B_0`` (bracketed Newton,
     :func:`amort.solve.rate`); the nominal annual rate is ``i p`` and the
@@ -115,6 +121,8 @@ def quote_rate(
         )
     )
     annual = periodic * per_year
+    if compounding is not None:
+        annual = float(rates.convert_rate(annual, Compounding(per_year), compounding))
     shown = Decimal(repr(annual)).quantize(Decimal("1e-10"))
     check = Loan(
         principal=principal,
@@ -123,6 +131,7 @@ def quote_rate(
         frequency=frequency,
         balloon=balloon,
         timing=timing,
+        compounding=compounding,
     )
     return {
         "annual_rate": annual,
@@ -135,6 +144,7 @@ def quote_rate(
         "balloon": balloon,
         "frequency": frequency.value,
         "timing": timing.value,
+        "compounding": None if compounding is None else compounding.name,
         "payment_at_rate": check.payment,
     }
 

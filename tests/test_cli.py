@@ -219,3 +219,71 @@ def test_every_verb_has_help_with_an_example(verb: str) -> None:
     assert code == 0
     assert "Example" in stdout
     assert "--json" in stdout
+
+
+def test_dated_schedule_json_has_dates_days_and_rates() -> None:
+    # Actual/365 Fixed: period 1 runs 45 days, 12,000 x 8.25 % x 45/365 = 122.05 (hand-derived).
+    data = as_json(
+        "schedule",
+        "--principal", "12000", "--rate", "8.25", "--periods", "6",
+        "--start", "2027-01-15", "--first-payment", "2027-03-01", "--day-count", "actual/365",
+    )  # fmt: skip
+    rows = data["schedule"]
+    assert rows[0]["due_date"] == "2027-03-01"
+    assert rows[0]["days"] == 45
+    assert rows[0]["interest"] == 122.05
+    assert data["maturity_date"] == "2027-08-01"
+    assert data["reconciliation"]["passed"] is True
+
+
+def test_dated_30_360_monthly_equals_the_undated_payment() -> None:
+    undated = as_json("payment", "--principal", "250000", "--rate", "6.5", "--periods", "360")
+    dated = as_json(
+        "payment", "--principal", "250000", "--rate", "6.5", "--periods", "360",
+        "--start", "2027-01-10", "--day-count", "30/360",
+    )  # fmt: skip
+    assert dated["payment"] == undated["payment"] == 1580.17
+    assert dated["final_payment"] == undated["final_payment"]
+
+
+def test_odd_days_separate_is_reported() -> None:
+    data = as_json(
+        "schedule", "--principal", "12000", "--rate", "8.25", "--periods", "6",
+        "--start", "2027-01-15", "--first-payment", "2027-03-01", "--day-count", "actual/365",
+        "--odd-days", "separate",
+    )  # fmt: skip
+    # 17 days from 15 January to 1 February: 12,000 x 8.25 % x 17/365 = 46.11 (hand-derived)
+    assert data["odd_days_interest"] == 46.11
+    assert data["schedule"][0]["odd_days_interest"] == 46.11
+
+
+def test_rate_conversion_semiannual_to_effective() -> None:
+    # (1 + 0.06/2)^2 - 1 = 0.0609 exactly (OpenDocument EFFECT's equation [text]).
+    data = as_json("rate", "--convert", "--rate", "6", "--compounding", "semiannual")
+    assert data["rate"] == 0.0609
+    assert data["exact"] is True
+
+
+DATED_BAD_INPUT = [
+    (["--start", "2027-02-30"], "not a valid date"),
+    (["--start", "2027-03-01", "--first-payment", "2027-03-01"], "must be after"),
+    (["--start", "2027-03-01", "--day-count", "act/999"], "day_count"),
+    (["--day-count", "actual/365"], "needs dates"),
+    (["--start", "2027-03-01", "--business-days", "following", "--holidays", "XX"], "XX"),
+    (["--start", "2027-03-01", "--compounding", "0"], "compounding"),
+    (
+        ["--frequency", "semimonthly", "--start", "2027-03-01", "--semimonthly-days", "15,15"],
+        "semimonthly",
+    ),
+]
+
+
+@pytest.mark.parametrize(("extra", "needle"), DATED_BAD_INPUT)
+def test_dated_bad_input_gets_one_sentence(extra: list[str], needle: str) -> None:
+    code, _, stderr = invoke(
+        "schedule", "--principal", "1000", "--rate", "5", "--periods", "12", *extra
+    )
+    assert code == 2
+    assert stderr.startswith("Error: ")
+    assert needle in stderr
+    assert "Traceback" not in stderr
