@@ -197,6 +197,35 @@ def _periods(periods: str | None, years: str | None, frequency: Frequency, verb:
     return parse_periods(_require(periods, "--periods", verb))
 
 
+def _dated_or_none(
+    start: str | None,
+    first_payment: str | None,
+    day_count: str,
+    business_days: str,
+    holidays: str | None,
+    odd_days: str,
+    end_of_month: bool,
+    interest_dates: str,
+    semimonthly_days: str,
+) -> dict[str, Any] | None:
+    """Return the dated Loan keywords, or None when the loan is undated and plain."""
+    terms = _dated(
+        start,
+        first_payment,
+        day_count,
+        None,
+        business_days,
+        holidays,
+        odd_days,
+        end_of_month,
+        interest_dates,
+        semimonthly_days,
+    )
+    terms.pop("compounding")
+    plain = start is None and first_payment is None and day_count == "equal"
+    return None if plain else terms
+
+
 # -- output helpers ---------------------------------------------------------------------------
 
 
@@ -451,6 +480,15 @@ def rate(
     frequency: FrequencyOpt = "monthly",
     balloon: Balloon = "0",
     advance: Advance = False,
+    start: Start = None,
+    first_payment: FirstPayment = None,
+    day_count: DayCountOpt = "equal",
+    business_days: BusinessDays = "none",
+    holidays: Holidays = None,
+    odd_days: OddDaysOpt = "accrue",
+    end_of_month: EndOfMonth = False,
+    interest_dates: InterestDatesOpt = "unadjusted",
+    semimonthly_days: SemimonthlyDays = "1,15",
     convert: Annotated[
         bool,
         typer.Option(
@@ -491,6 +529,17 @@ def rate(
             balloon=parse_amount(balloon, "balloon", allow_zero=True),
             timing=Timing.ADVANCE if advance else Timing.ARREARS,
             compounding=None if compounding is None else Compounding.parse(compounding),
+            dated=_dated_or_none(
+                start,
+                first_payment,
+                day_count,
+                business_days,
+                holidays,
+                odd_days,
+                end_of_month,
+                interest_dates,
+                semimonthly_days,
+            ),
         )
     if as_json:
         _emit_json(figures)
@@ -561,6 +610,16 @@ def principal_(
     balloon: Balloon = "0",
     advance: Advance = False,
     rounding: RoundingOpt = "half-up",
+    start: Start = None,
+    first_payment: FirstPayment = None,
+    day_count: DayCountOpt = "equal",
+    business_days: BusinessDays = "none",
+    holidays: Holidays = None,
+    odd_days: OddDaysOpt = "accrue",
+    end_of_month: EndOfMonth = False,
+    interest_dates: InterestDatesOpt = "unadjusted",
+    semimonthly_days: SemimonthlyDays = "1,15",
+    compounding: CompoundingOpt = None,
     as_json: AsJson = False,
 ) -> None:
     """The largest principal a payment repays (rounded down to the cent)."""
@@ -574,6 +633,18 @@ def principal_(
             balloon=parse_amount(balloon, "balloon", allow_zero=True),
             timing=Timing.ADVANCE if advance else Timing.ARREARS,
             rounding=Rounding.parse(rounding, "rounding"),
+            compounding=None if compounding is None else Compounding.parse(compounding),
+            dated=_dated_or_none(
+                start,
+                first_payment,
+                day_count,
+                business_days,
+                holidays,
+                odd_days,
+                end_of_month,
+                interest_dates,
+                semimonthly_days,
+            ),
         )
     if as_json:
         _emit_json(figures)

@@ -10,7 +10,6 @@ engine a book of a million loans runs on.
 
 from __future__ import annotations
 
-import dataclasses
 import functools
 import math
 from dataclasses import dataclass
@@ -22,7 +21,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from amort import calendar, solve
+from amort import calendar, solve, variable
 from amort.calendar import BusinessDay
 from amort.conventions import Frequency, Timing
 from amort.dated import DatedPlan, InterestDates, OddDays, plan
@@ -40,7 +39,7 @@ from amort.money import (
     to_cents,
 )
 from amort.rates import Compounding, periodic_rate
-from amort.reconcile import reconcile
+from amort.reconcile import Reconciliation, reconcile
 from amort.schedule import BatchTerms, CentsTable, run
 
 
@@ -71,71 +70,6 @@ def parse_periods(value: object, field: str = "periods") -> int:
     if number > limit:
         raise InvalidTerms(f"{rule}; longer terms are refused as absurd (got {describe(value)})")
     return number
-
-
-@dataclass(frozen=True)
-class Reconciliation:
-    """A schedule's checks against the closed form (see :mod:`amort.reconcile`).
-
-    Gaps and bounds are in currency units; the identities are exact checks.
-    """
-
-    largest_gap: float
-    gap_bound: float
-    final_adjustment: float
-    expected_adjustment: float
-    adjustment_bound: float
-    balloon_paid: Decimal
-    balloon_adjustment: Decimal
-    principal_identity: bool
-    payment_identity: bool
-    chain_identity: bool
-    closes_at_zero: bool
-    passed: bool
-    #: Every row's gap within its own bound u s_k (the largest gap is compared
-    #: with the largest bound, which alone could hide an early row's failure).
-    gap_within_bound: bool = True
-
-    @property
-    def checks(self) -> list[tuple[str, str, bool]]:
-        """Return (check, figures, passed) for each check, for display."""
-        return [
-            (
-                "largest gap between cent and closed-form balance",
-                f"{self.largest_gap:.4f} <= bound {self.gap_bound:.4f}, row by row",
-                self.gap_within_bound and self.largest_gap <= self.gap_bound,
-            ),
-            (
-                "final-payment adjustment matches the closed form",
-                f"{self.final_adjustment:.2f} vs {self.expected_adjustment:.4f} "
-                f"(within {self.adjustment_bound:.4f})",
-                abs(self.final_adjustment - self.expected_adjustment) <= self.adjustment_bound,
-            ),
-            (
-                "sum(principal) + balloon = principal",
-                "exact" if self.principal_identity else "broken",
-                self.principal_identity,
-            ),
-            (
-                "sum(payment) = sum(interest) + sum(principal)",
-                "exact" if self.payment_identity else "broken",
-                self.payment_identity,
-            ),
-            (
-                "each opening balance = previous closing balance",
-                "exact" if self.chain_identity else "broken",
-                self.chain_identity,
-            ),
-            (
-                "balance closes at 0",
-                "yes" if self.closes_at_zero else "no",
-                self.closes_at_zero,
-            ),
-        ]
-
-    def as_dict(self) -> dict[str, Any]:
-        """Return the checks as plain values (for JSON)."""
-        return {f.name: getattr(self, f.name) for f in dataclasses.fields(self)}
 
 
 class _AnnualRate(Decimal):
@@ -428,6 +362,32 @@ class Loan:
     def payment(self) -> Decimal:
         """The level payment per period in currency units (the closed form rounded to the cent)."""
         return from_cents(self._level_cents)
+
+    def payment_factors(self) -> tuple[float, float]:
+        """Return ``(W, v_N)``: the level payment's closed form is ``P = (B - F v_N) / W``.
+
+        ``B`` is the principal plus any capitalised odd-days interest, ``W`` the
+        sum of the payments' discount factors (``v_k`` in arrears, ``v_{k-1}``
+        in advance) over the loan's ``periods``; float64.
+        """
+        if self.periods is None:
+            raise InvalidTerms("the payment factors need 'periods'")
+        rates = self._rates_for(self.periods)
+        if rates is None:
+            rates = [self.periodic_rate] * self.periods
+        column = np.asarray([float(r) for r in rates], dtype=np.float64)[:, None]
+        v = variable.discount_factors(column)[:, 0]
+        weights = np.concatenate([[1.0], v[:-1]]) if self.advance else v
+        return float(weights.sum()), float(v[-1])
+
+    @property
+    def exact_payment(self) -> float:
+        """The level payment before rounding to the cent, in currency units (float64)."""
+        if self.periods is None:
+            return float(self._level_cents) / 100
+        weight, v_n = self.payment_factors()
+        owed = (to_cents(self.principal) + self._capitalised_cents) / 100
+        return (owed - float(self.balloon) * v_n) / weight
 
     @functools.cached_property
     def _horizon(self) -> int:

@@ -10,14 +10,15 @@ dumps as JSON. Nothing here prints.
 from __future__ import annotations
 
 import dataclasses
+import math
 from decimal import ROUND_DOWN, Decimal
 from typing import Any
 
 from amort import rates, solve
 from amort.conventions import Frequency, Timing
-from amort.errors import NoSolution
+from amort.errors import AmortError, NoSolution
 from amort.loan import Loan
-from amort.money import CENT, Rounding
+from amort.money import CENT, Rounding, parse_rate
 from amort.rates import Compounding
 
 
@@ -96,6 +97,7 @@ def quote_rate(
     balloon: Decimal = Decimal(0),
     timing: Timing = Timing.ARREARS,
     compounding: Compounding | None = None,
+    dated: dict[str, Any] | None = None,
 ) -> dict[str, Any]:
     """Return the nominal annual rate at which ``periods`` payments repay ``principal``.
 
@@ -109,12 +111,20 @@ def quote_rate(
     the rate rounded to 8 decimal places of a percent and its level payment
     reported beside the one given.
 
+    A dated loan (``dated`` holds :class:`Loan`'s dated options) is solved by
+    bisection on the annual rate, the loan's unrounded level payment being
+    increasing in it.
+
     >>> quote = quote_rate(Decimal(250_000), Decimal("1580.17"), 360)
     >>> round(quote["annual_rate"] * 100, 4)
     6.5
     """
     per_year = frequency.per_year
     advance = timing is Timing.ADVANCE
+    if dated:
+        return _dated_rate(
+            principal, payment, periods, frequency, balloon, timing, compounding, dated
+        )
     periodic = float(
         solve.rate(
             float(principal), float(payment), periods, balloon=float(balloon), advance=advance
@@ -158,31 +168,38 @@ def quote_principal(
     balloon: Decimal = Decimal(0),
     timing: Timing = Timing.ARREARS,
     rounding: Rounding = Rounding.HALF_UP,
+    compounding: Compounding | None = None,
+    dated: dict[str, Any] | None = None,
 ) -> dict[str, Any]:
     """Return the largest principal (to the cent, rounded down) that ``payment`` repays.
 
-    ``B_0 = P a_N + F v^N`` (``a_N (1 + i)`` in advance), rounded down so that
-    the payment of a loan of that principal never exceeds the one given; the
-    loan is rebuilt and its level payment reported as the check.
+    ``B_0 = (P W + F v_N) / (1 + c)`` where ``P = (B - F v_N) / W`` is the
+    loan's level payment (:meth:`Loan.payment_factors`; ``W = a_N`` for a
+    constant rate) and ``c`` the share of the principal capitalised as
+    odd-days interest. Rounded down so that the payment of a loan of that
+    principal never exceeds the one given; the loan is rebuilt and its level
+    payment reported as the check. ``dated`` holds the dated options of
+    :class:`Loan` (``start``, ``first_payment``, ``day_count``, ...).
 
     >>> quote_principal(Decimal("1580.17"), Decimal("0.065"), 360)["principal"]
     Decimal('249999.99')
     """
-    advance = timing is Timing.ADVANCE
-    periodic = float(annual_rate) / frequency.per_year
-    raw = float(
-        solve.principal(float(payment), periodic, periods, balloon=float(balloon), advance=advance)
-    )
+    terms: dict[str, Any] = {
+        "annual_rate": annual_rate,
+        "periods": periods,
+        "frequency": frequency,
+        "timing": timing,
+        "rounding": rounding,
+        "compounding": compounding,
+        **(dated or {}),
+    }
+    probe = Loan(principal=_PROBE, **terms)
+    weight, v_n = probe.payment_factors()
+    capitalised = probe.summary()["odd_days_interest"] if probe.odd_days.value != "separate" else 0
+    share = float(Decimal(capitalised) / _PROBE)
+    raw = (float(payment) * weight + float(balloon) * v_n) / (1 + share)
     amount = Decimal(repr(raw)).quantize(CENT, rounding=ROUND_DOWN)
-    loan = Loan(
-        principal=amount,
-        annual_rate=annual_rate,
-        periods=periods,
-        frequency=frequency,
-        balloon=balloon,
-        timing=timing,
-        rounding=rounding,
-    )
+    loan = Loan(principal=amount, balloon=balloon, **terms)
     # The float closed form can sit a hair above the exact value: step down a cent if so.
     for _ in range(3):
         if loan.payment <= payment or amount <= CENT:
@@ -193,3 +210,77 @@ def quote_principal(
     out["principal_exact"] = raw
     out["payment_given"] = payment
     return out
+
+
+#: Principal of the probe loan whose factors a quote reads (any amount would do).
+_PROBE = Decimal(1_000_000)
+
+
+def _dated_rate(
+    principal: Decimal,
+    payment: Decimal,
+    periods: int,
+    frequency: Frequency,
+    balloon: Decimal,
+    timing: Timing,
+    compounding: Compounding | None,
+    dated: dict[str, Any],
+) -> dict[str, Any]:
+    """Return :func:`quote_rate`'s figures for a dated loan (bisection on the annual rate)."""
+    per_year = frequency.per_year
+
+    def loan_at(annual: float) -> Loan:
+        return Loan(
+            principal=principal,
+            annual_rate=parse_rate(f"{annual * 100!r}%"),
+            periods=periods,
+            frequency=frequency,
+            balloon=balloon,
+            timing=timing,
+            compounding=compounding,
+            **dated,
+        )
+
+    def excess(annual: float) -> float:
+        try:
+            return loan_at(annual).exact_payment - float(payment)
+        except AmortError:
+            return math.inf  # past what the terms allow: the rate is lower
+
+    if excess(0.0) > 0:
+        total = payment * periods + balloon
+        raise NoSolution(
+            f"the payments total {total:,.2f}, less than the principal {principal:,.2f}; "
+            "no rate >= 0 repays it"
+        )
+    lo, hi = 0.0, float(per_year)
+    if excess(hi) < 0:
+        raise NoSolution("the implied rate is above 100 % a period, outside what amort solves for")
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        if excess(mid) < 0:
+            lo = mid
+        else:
+            hi = mid
+        if hi - lo <= 4e-16 * hi:
+            break
+    annual = 0.5 * (lo + hi)
+    check = loan_at(float(Decimal(repr(annual)).quantize(Decimal("1e-10"))))
+    periodic = float(check.periodic_rate)
+    return {
+        "annual_rate": annual,
+        "annual_rate_percent": annual * 100,
+        "periodic_rate": periodic,
+        "effective_annual_rate": float(rates.effective_annual(periodic, per_year)),
+        "principal": principal,
+        "payment": payment,
+        "number_of_payments": periods,
+        "balloon": balloon,
+        "frequency": frequency.value,
+        "timing": timing.value,
+        "compounding": None if compounding is None else compounding.name,
+        "payment_at_rate": check.payment,
+        "day_count": check.day_count.value,
+        "start": check.start,
+        "first_payment_date": check.first_payment,
+    }

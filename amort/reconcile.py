@@ -26,6 +26,9 @@ the bound is infinite and says nothing; such rows pass.
 
 from __future__ import annotations
 
+import dataclasses
+from dataclasses import dataclass
+from decimal import Decimal
 from fractions import Fraction
 from typing import Any
 
@@ -59,6 +62,71 @@ RECONCILIATION_COLUMNS = [
     "closes_at_zero",
     "passed",
 ]
+
+
+@dataclass(frozen=True)
+class Reconciliation:
+    """A schedule's checks against the closed form (see :mod:`amort.reconcile`).
+
+    Gaps and bounds are in currency units; the identities are exact checks.
+    """
+
+    largest_gap: float
+    gap_bound: float
+    final_adjustment: float
+    expected_adjustment: float
+    adjustment_bound: float
+    balloon_paid: Decimal
+    balloon_adjustment: Decimal
+    principal_identity: bool
+    payment_identity: bool
+    chain_identity: bool
+    closes_at_zero: bool
+    passed: bool
+    #: Every row's gap within its own bound u s_k (the largest gap is compared
+    #: with the largest bound, which alone could hide an early row's failure).
+    gap_within_bound: bool = True
+
+    @property
+    def checks(self) -> list[tuple[str, str, bool]]:
+        """Return (check, figures, passed) for each check, for display."""
+        return [
+            (
+                "largest gap between cent and closed-form balance",
+                f"{self.largest_gap:.4f} <= bound {self.gap_bound:.4f}, row by row",
+                self.gap_within_bound and self.largest_gap <= self.gap_bound,
+            ),
+            (
+                "final-payment adjustment matches the closed form",
+                f"{self.final_adjustment:.2f} vs {self.expected_adjustment:.4f} "
+                f"(within {self.adjustment_bound:.4f})",
+                abs(self.final_adjustment - self.expected_adjustment) <= self.adjustment_bound,
+            ),
+            (
+                "sum(principal) + balloon = principal",
+                "exact" if self.principal_identity else "broken",
+                self.principal_identity,
+            ),
+            (
+                "sum(payment) = sum(interest) + sum(principal)",
+                "exact" if self.payment_identity else "broken",
+                self.payment_identity,
+            ),
+            (
+                "each opening balance = previous closing balance",
+                "exact" if self.chain_identity else "broken",
+                self.chain_identity,
+            ),
+            (
+                "balance closes at 0",
+                "yes" if self.closes_at_zero else "no",
+                self.closes_at_zero,
+            ),
+        ]
+
+    def as_dict(self) -> dict[str, Any]:
+        """Return the checks as plain values (for JSON)."""
+        return {f.name: getattr(self, f.name) for f in dataclasses.fields(self)}
 
 
 def reconcile(

@@ -287,3 +287,16 @@ def test_dated_bad_input_gets_one_sentence(extra: list[str], needle: str) -> Non
     assert stderr.startswith("Error: ")
     assert needle in stderr
     assert "Traceback" not in stderr
+
+
+def test_rate_and_principal_verbs_take_dates() -> None:
+    dated = ["--start", "2027-01-15", "--first-payment", "2027-03-01", "--day-count", "actual/365"]
+    # The schedule above pays 2,055.32 at 8.25 %: the rate verb must find 8.25 % back.
+    rate = as_json("rate", "--principal", "12000", "--payment", "2055.32", "--periods", "6", *dated)
+    assert abs(rate["annual_rate_percent"] - 8.25) < 1e-3
+    assert rate["payment_at_rate"] == 2055.32
+    principal = as_json(
+        "principal", "--payment", "2055.32", "--rate", "8.25", "--periods", "6", *dated
+    )
+    assert 11_999.9 < principal["principal"] < 12_000.1
+    assert principal["payment"] <= 2055.32
