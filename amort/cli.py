@@ -272,7 +272,7 @@ def _terms_rows(loan: Loan) -> list[tuple[str, str]]:
     if loan.dated:
         summary = loan.summary()
         rows += [
-            ("start", f"{loan.start}"),
+            ("start", f"{loan.start_date}"),
             ("first payment", f"{summary['first_payment_date']}"),
             ("day count", loan.day_count.value),
             ("maturity", f"{summary['maturity_date']}"),

@@ -32,7 +32,7 @@ from __future__ import annotations
 import enum
 import itertools
 from dataclasses import dataclass
-from datetime import date
+from datetime import date, timedelta
 from fractions import Fraction
 
 from amort import calendar
@@ -43,6 +43,16 @@ from amort.errors import InvalidTerms, describe
 
 #: A first period longer than this many regular periods is refused as a likely date slip.
 MAX_FIRST_PERIODS = 60
+#: The last date a pandas datetime64[ns] column holds.
+LAST_DATE = date(2262, 4, 11)
+_MONTHS = {
+    Frequency.MONTHLY: 1,
+    Frequency.BIMONTHLY: 2,
+    Frequency.QUARTERLY: 3,
+    Frequency.SEMIANNUAL: 6,
+    Frequency.ANNUAL: 12,
+}
+_DAYS = {Frequency.WEEKLY: 7, Frequency.BIWEEKLY: 14}
 
 
 class OddDays(enum.Enum):
@@ -113,14 +123,26 @@ class _Rules:
     semimonthly: tuple[int, int]
     termination: date | None = None
 
-    def back(self, end: date) -> date:
-        """Return the date one regular period before ``end``."""
-        return calendar.regular_period_start(
-            end,
-            self.frequency,
-            end_of_month=self.end_of_month,
-            semimonthly_days=self.semimonthly,
-        )
+    def back(self, end: date, periods: int = 1) -> date:
+        """Return the date ``periods`` regular periods before ``end``.
+
+        Months are counted from ``end``'s own day (31 March back two months is
+        31 January, not 28 January), so no day is lost on the way.
+        """
+        months = _MONTHS.get(self.frequency)
+        if months is not None:
+            return calendar.add_months(end, -months * periods, end_of_month=self.end_of_month)
+        days = _DAYS.get(self.frequency)
+        if days is not None:
+            return end - timedelta(days=days * periods)
+        for _ in range(periods):
+            end = calendar.regular_period_start(
+                end,
+                self.frequency,
+                end_of_month=self.end_of_month,
+                semimonthly_days=self.semimonthly,
+            )
+        return end
 
     def share(self, start: date, end: date) -> Fraction:
         """Return how many regular periods run from ``start`` to ``end`` (equal rule).
@@ -131,7 +153,7 @@ class _Rules:
         whole = 0
         stop = end
         while stop > start:
-            begin = self.back(stop)
+            begin = self.back(end, whole + 1)
             if begin <= start:
                 return whole + Fraction((stop - start).days, (stop - begin).days)
             whole += 1
@@ -211,12 +233,24 @@ def plan(
 
     count = periods + 1 if advance else periods
     dates = due(first_payment, count)
-    if not advance and frequency.per_year <= 12 and first_payment != start:
+    anchored = False
+    if not advance:
         # A first payment one regular period after the start keeps the start's day
-        # of the month: a loan made on the 31st is due on the 31st in long months.
-        from_start = due(start, count + 1)
-        if from_start.unadjusted[1] == first_payment:
+        # of the month (a loan made on the 31st is due on the 31st in long months),
+        # and its first period is a regular one.
+        try:
+            from_start = due(start, count + 1)
+        except InvalidTerms:
+            from_start = None  # the start is not a due day of this calendar
+        if from_start is not None and from_start.unadjusted[1] == first_payment:
             dates = PaymentDates(from_start.unadjusted[1:], from_start.adjusted[1:])
+            anchored = True
+    last = max(dates.adjusted[-1], dates.unadjusted[-1])
+    if last > LAST_DATE:
+        raise InvalidTerms(
+            f"the due dates run to {last}, past {LAST_DATE}, the last date a schedule's "
+            "datetime64 column holds; use fewer periods or an earlier start"
+        )
     marks = list(dates.adjusted if interest_dates is InterestDates.ADJUSTED else dates.unadjusted)
     bounds = tuple(marks[: periods + 1]) if advance else (start, *marks[:periods])
     rules = _Rules(
@@ -231,19 +265,26 @@ def plan(
     pairs = list(itertools.pairwise(bounds))
     rates = [rules.regular_rate(a, b) for a, b in pairs]
     days = [rules.days(a, b) for a, b in pairs]
+    # The equal rule counts periods on the scheduled dates, never the moved ones.
+    equal = day_count is DayCount.EQUAL
+    first_end = dates.unadjusted[0] if equal else bounds[1 if not advance else 0]
     odd_rate = Fraction(0)
     if advance:
         # Days before the first payment: their interest is capitalised or separate.
-        odd_rate = rules.rate(start, bounds[0])
+        odd_rate = rules.rate(start, first_end)
     else:
-        regular_begin = rules.back(dates.unadjusted[0])
+        regular_begin = start if anchored else rules.back(dates.unadjusted[0])
         if start < regular_begin and odd_days is not OddDays.ACCRUE:
-            odd_rate = rules.rate(start, regular_begin)
+            if equal:
+                # Count the stub's periods back from the first due date itself.
+                odd_rate = rules.rate(start, dates.unadjusted[0]) - periodic_rate
+            else:
+                odd_rate = rules.rate(start, regular_begin)
             rates[0] = rules.regular_rate(regular_begin, bounds[1])
             days[0] = rules.days(regular_begin, bounds[1])
         elif start != regular_begin:
             # A long first period that accrues, or a short one: its own length.
-            rates[0] = rules.rate(start, bounds[1])
+            rates[0] = rules.rate(start, first_end)
     return DatedPlan(
         due=tuple(dates.adjusted[:periods]),
         bounds=bounds,

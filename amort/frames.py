@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from amort.errors import InvalidTerms
 from amort.schedule import CentsTable
 
 #: The schedule columns every table has, in this order.
@@ -17,6 +18,10 @@ SCHEDULE_COLUMNS = [
     "principal",
     "closing_balance",
 ]
+
+
+#: Largest integer number of cents float64 holds exactly (2**53).
+_EXACT_CENTS = 2**53
 
 
 def _money(cents: np.ndarray) -> np.ndarray:
@@ -32,6 +37,12 @@ def schedule_frame(table: CentsTable, *, with_loan: bool = False) -> pd.DataFram
     ``with_loan`` a leading ``loan`` column holds each row's batch index.
     """
     size = table.period.size
+    widest = max((int(np.abs(a).max(initial=0)) for a in (table.opening, table.closing)), default=0)
+    if widest > _EXACT_CENTS:
+        raise InvalidTerms(
+            f"the balance reaches {widest / 100:,.2f}, beyond what float64 holds to the cent "
+            f"({_EXACT_CENTS / 100:,.2f}); the terms let the balance grow far past the principal"
+        )
     data: dict[str, object] = {}
     if with_loan:
         data["loan"] = table.loan

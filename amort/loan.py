@@ -178,14 +178,21 @@ class Loan:
             if self.first_payment is None
             else calendar.parse_date(self.first_payment, "first_payment")
         )
+        set_("start", start)
+        set_("first_payment", first)
+        # Derived dates are kept apart from the fields, so that replace() with a
+        # new start derives a new first payment instead of keeping the old one.
         eom, pair = self.end_of_month, self.semimonthly_days
         if start is not None and first is None:
             if self.advance:
                 first = start
             else:
-                first = calendar.due_dates(
-                    start, 2, self.frequency, end_of_month=eom, semimonthly_days=pair
-                ).unadjusted[1]
+                try:
+                    first = calendar.due_dates(
+                        start, 2, self.frequency, end_of_month=eom, semimonthly_days=pair
+                    ).unadjusted[1]
+                except InvalidTerms as exc:
+                    raise InvalidTerms(str(exc).replace("'first_payment'", "'start'")) from None
         elif first is not None and start is None:
             start = (
                 first
@@ -194,16 +201,19 @@ class Loan:
                     first, self.frequency, end_of_month=eom, semimonthly_days=pair
                 )
             )
-        set_("start", start)
-        set_("first_payment", first)
+        self.__dict__["_dates"] = (start, first)
         if start is None:
             if self.day_count is not DayCount.EQUAL:
                 raise InvalidTerms(
                     f"'day_count' {self.day_count.value!r} needs dates: give 'start' "
                     "(the disbursement date) and 'first_payment'"
                 )
-            if self.business_days is not BusinessDay.NONE or self.holidays is not None:
-                raise InvalidTerms("business-day adjustment needs dates: give 'start'")
+            if self.business_days is not BusinessDay.NONE:
+                raise InvalidTerms(
+                    f"'business_days' {self.business_days.value!r} needs dates: give 'start'"
+                )
+            if self.holidays is not None:
+                raise InvalidTerms(f"'holidays' {self.holidays!r} needs dates: give 'start'")
         if self.compounding is not None and self.day_count is not DayCount.EQUAL:
             raise InvalidTerms(
                 f"'compounding' applies under the 'equal' day count; under "
@@ -213,7 +223,20 @@ class Loan:
     @property
     def dated(self) -> bool:
         """True when the loan has dates (a disbursement and a first payment date)."""
-        return self.start is not None
+        return self.start_date is not None
+
+    @property
+    def start_date(self) -> date | None:
+        """The disbursement date: ``start``, or one regular period before ``first_payment``."""
+        start: date | None = self.__dict__["_dates"][0]
+        return start
+
+    @property
+    def first_payment_date(self) -> date | None:
+        """The first due date before any business-day move: ``first_payment``, or one
+        regular period after ``start`` (the start itself in advance)."""
+        first: date | None = self.__dict__["_dates"][1]
+        return first
 
     @property
     def periodic_rate(self) -> Fraction:
@@ -225,10 +248,10 @@ class Loan:
     def _plan_for(self, periods: int) -> DatedPlan:
         cache = self.__dict__.setdefault("_plans", {})
         if periods not in cache:
-            assert self.start is not None and self.first_payment is not None
+            assert self.start_date is not None and self.first_payment_date is not None
             cache[periods] = plan(
-                start=self.start,
-                first_payment=self.first_payment,
+                start=self.start_date,
+                first_payment=self.first_payment_date,
                 periods=periods,
                 frequency=self.frequency,
                 annual_rate=Fraction(self.annual_rate),
@@ -300,10 +323,33 @@ class Loan:
             )
 
     def _first_interest_cents(self, payment_cents: int) -> int:
-        rate = self._plan_for(1).rates[0] if self.dated else self.periodic_rate
+        """Interest on the opening balance at the highest rate a regular period earns.
+
+        Undated: the periodic rate. Dated: the highest rate of periods 2 to 13
+        (a long first period may exceed the payment once; the closed form
+        still repays the loan, and the engine lets period 1 grow the balance).
+        """
+        rate = self.periodic_rate
         base = to_cents(self.principal) + self._capitalised_cents
+        if self.dated:
+            span = self._plan_for(13).rates
+            if self.periods is None or self.periods > 1:
+                rate = max(span[1:])
+                # A long first period may leave more owing than was lent.
+                first = span[0]
+                owed = base - (payment_cents if self.advance else 0)
+                grown = owed + round_ratio(
+                    max(owed, 0) * first.numerator, first.denominator, self.interest_rounding
+                )
+                base = max(base, grown - (0 if self.advance else payment_cents))
+            else:
+                rate = span[0]
         base -= payment_cents if self.advance else 0
         return round_ratio(max(base, 0) * rate.numerator, rate.denominator, self.interest_rounding)
+
+    @property
+    def _which_period(self) -> str:
+        return "first period's" if not self.dated else "highest regular period's"
 
     def _check_payment_covers_interest(self) -> None:
         pay = self._level_cents
@@ -326,7 +372,7 @@ class Loan:
                 extra = "; the principal is too small to repay in whole cents at this rate"
             error = NoSolution if open_term else InvalidTerms
             raise error(
-                f"{what} {from_cents(pay):,} does not cover the first period's interest of "
+                f"{what} {from_cents(pay):,} does not cover the {self._which_period} interest of "
                 f"{from_cents(interest):,}{extra}"
             )
 
@@ -468,7 +514,9 @@ class Loan:
             table = run(self.batch_terms(horizon), self.interest_rounding)
             closed_early = int(table.rows[0]) < horizon
             if closed_early or int(table.final_payment[0]) <= self._level_cents:
-                return horizon
+                # Plan exactly the periods it ran, so that a day count that looks at
+                # the termination date (30E/360 ISDA) sees the real maturity.
+                return int(table.rows[0])
             if horizon > solve.MAX_PERIODS:
                 return horizon
             horizon = min(2 * horizon, solve.MAX_PERIODS + 1)
@@ -542,12 +590,12 @@ class Loan:
             "final_payment": from_cents(int(table.final_payment[0])),
             "balloon": balloon_paid,
             "total_interest": from_cents(int(table.interest.sum())) + odd,
-            "total_principal": from_cents(int(table.principal.sum())),
+            "total_principal": from_cents(int(table.principal.sum()) - self._capitalised_cents),
             "total_paid": total_payments + balloon_paid + separate,
             "odd_days_interest": odd,
             "maturity_period": self.number_of_payments,
             "maturity_date": maturity,
-            "start": self.start,
+            "start": self.start_date,
             "first_payment_date": first_due,
             "day_count": self.day_count.value,
             "compounding": None if self.compounding is None else self.compounding.name,

@@ -281,6 +281,6 @@ def _dated_rate(
         "compounding": None if compounding is None else compounding.name,
         "payment_at_rate": check.payment,
         "day_count": check.day_count.value,
-        "start": check.start,
-        "first_payment_date": check.first_payment,
+        "start": check.start_date,
+        "first_payment_date": check.first_payment_date,
     }
