@@ -36,7 +36,7 @@ from typing import Literal
 import numpy as np
 import numpy.typing as npt
 
-from amort.conventions import Frequency
+from amort.conventions import Frequency, parse_choice
 from amort.errors import InvalidTerms, describe
 
 DateArray = npt.NDArray[np.datetime64]
@@ -71,16 +71,7 @@ class BusinessDay(enum.Enum):
         >>> BusinessDay.parse("Modified Following")
         <BusinessDay.MODIFIED_FOLLOWING: 'modified-following'>
         """
-        if isinstance(value, BusinessDay):
-            return value
-        if isinstance(value, str):
-            text = "-".join(value.strip().lower().replace("_", " ").replace("-", " ").split())
-            text = _ADJUSTMENT_ALIASES.get(text, text)
-            for rule in cls:
-                if rule.value == text:
-                    return rule
-        valid = ", ".join(repr(r.value) for r in cls)
-        raise InvalidTerms(f"{field!r} must be one of {valid} (got {describe(value)})")
+        return parse_choice(cls, value, field, _ADJUSTMENT_ALIASES)
 
 
 _ADJUSTMENT_ALIASES = {

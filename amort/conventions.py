@@ -3,8 +3,40 @@
 from __future__ import annotations
 
 import enum
+from collections.abc import Mapping
+from typing import TypeVar
 
 from amort.errors import InvalidTerms, describe
+
+_Choice = TypeVar("_Choice", bound=enum.Enum)
+
+
+def parse_choice(
+    kind: type[_Choice],
+    value: _Choice | str,
+    field: str,
+    aliases: Mapping[str, str] | None = None,
+) -> _Choice:
+    """Return the member of the enum ``kind`` whose value ``value`` names.
+
+    Case, surrounding space, underscores and inner spaces are forgiven
+    (``"Half_Up"`` and ``"half up"`` name ``"half-up"``); ``aliases`` maps other
+    spellings to a member's value. Anything else is one sentence naming the
+    field, the valid values and what was given.
+
+    >>> parse_choice(Frequency, "Semi Annual", "frequency", _ALIASES)
+    <Frequency.SEMIANNUAL: 'semiannual'>
+    """
+    if isinstance(value, kind):
+        return value
+    if isinstance(value, str):
+        text = "-".join(value.strip().lower().replace("_", " ").replace("-", " ").split())
+        text = (aliases or {}).get(text, text)
+        for member in kind:
+            if member.value == text:
+                return member
+    valid = ", ".join(repr(m.value) for m in kind)
+    raise InvalidTerms(f"{field!r} must be one of {valid} (got {describe(value)})")
 
 
 class Frequency(enum.Enum):
@@ -27,15 +59,7 @@ class Frequency(enum.Enum):
     @classmethod
     def parse(cls, value: Frequency | str, field: str = "frequency") -> Frequency:
         """Return the frequency named by ``value`` (``"monthly"``, ``"annual"``, ...)."""
-        if isinstance(value, Frequency):
-            return value
-        text = str(value).strip().lower().replace("_", "-")
-        text = _ALIASES.get(text, text)
-        for freq in cls:
-            if freq.value == text:
-                return freq
-        valid = ", ".join(repr(f.value) for f in cls)
-        raise InvalidTerms(f"{field!r} must be one of {valid} (got {describe(value)})")
+        return parse_choice(cls, value, field, _ALIASES)
 
 
 _PER_YEAR = {
@@ -56,6 +80,9 @@ _ALIASES = {
     "yearly": "annual",
     "annually": "annual",
     "half-yearly": "semiannual",
+    "semi-annually": "semiannual",
+    "bi-weekly": "biweekly",
+    "bi-monthly": "bimonthly",
 }
 
 

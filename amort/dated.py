@@ -37,9 +37,9 @@ from fractions import Fraction
 
 from amort import calendar
 from amort.calendar import BusinessDay, PaymentDates
-from amort.conventions import Frequency
+from amort.conventions import Frequency, parse_choice
 from amort.daycount import DayCount, day_count_days, year_fraction
-from amort.errors import InvalidTerms, describe
+from amort.errors import InvalidTerms
 
 #: A first period longer than this many regular periods is refused as a likely date slip.
 MAX_FIRST_PERIODS = 60
@@ -65,14 +65,7 @@ class OddDays(enum.Enum):
     @classmethod
     def parse(cls, value: OddDays | str, field: str = "odd_days") -> OddDays:
         """Return the option named by ``value`` (``"capitalize"`` is accepted too)."""
-        if isinstance(value, OddDays):
-            return value
-        text = str(value).strip().lower().replace("capitalize", "capitalise")
-        for option in cls:
-            if option.value == text:
-                return option
-        valid = ", ".join(repr(o.value) for o in cls)
-        raise InvalidTerms(f"{field!r} must be one of {valid} (got {describe(value)})")
+        return parse_choice(cls, value, field, {"capitalize": "capitalise"})
 
 
 class InterestDates(enum.Enum):
@@ -84,13 +77,7 @@ class InterestDates(enum.Enum):
     @classmethod
     def parse(cls, value: InterestDates | str, field: str = "interest_dates") -> InterestDates:
         """Return the option named by ``value``."""
-        if isinstance(value, InterestDates):
-            return value
-        text = str(value).strip().lower()
-        for option in cls:
-            if option.value == text:
-                return option
-        raise InvalidTerms(f"{field!r} must be 'unadjusted' or 'adjusted' (got {describe(value)})")
+        return parse_choice(cls, value, field, {"scheduled": "unadjusted", "moved": "adjusted"})
 
 
 @dataclass(frozen=True)

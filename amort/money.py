@@ -19,6 +19,7 @@ from fractions import Fraction
 import numpy as np
 import numpy.typing as npt
 
+from amort.conventions import parse_choice
 from amort.errors import InvalidTerms, describe
 
 CENT = Decimal("0.01")
@@ -45,14 +46,7 @@ class Rounding(enum.Enum):
     @classmethod
     def parse(cls, value: Rounding | str, field: str = "rounding") -> Rounding:
         """Return the rounding mode named by ``value`` (``"half-up"``, ...)."""
-        if isinstance(value, Rounding):
-            return value
-        text = str(value).strip().lower().replace("_", "-")
-        for mode in cls:
-            if mode.value == text:
-                return mode
-        valid = ", ".join(repr(m.value) for m in cls)
-        raise InvalidTerms(f"{field!r} must be one of {valid} (got {describe(value)})")
+        return parse_choice(cls, value, field)
 
     @property
     def half_unit(self) -> bool:

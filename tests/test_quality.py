@@ -61,6 +61,7 @@ CORE = {
     "batch",
     "schedule_fast",
     "dated",
+    "compounding",
 }
 FORBIDDEN_IN_CORE = {"pandas", "sympy", "openpyxl", "typer", "rich", "amort.cli", "amort.io"}
 
