@@ -8,30 +8,60 @@ non-zero (2 invalid terms, 3 no solution, 4 file problems).
 
 from __future__ import annotations
 
-import contextlib
-import json
 import os
 import sys
-from collections.abc import Iterator
-from datetime import date
-from decimal import Decimal
-from fractions import Fraction
-from pathlib import Path
 from typing import Annotated, Any
 
-import pandas as pd
 import typer
-from rich.console import Console
-from rich.table import Table
 
 from amort import __version__, rates
-from amort.caution import CAUTION
+from amort.cli_options import (
+    Advance,
+    AsJson,
+    Balloon,
+    BusinessDays,
+    CompoundingOpt,
+    DayCountOpt,
+    EndOfMonth,
+    FirstPayment,
+    Force,
+    FrequencyOpt,
+    Holidays,
+    InterestDatesOpt,
+    InterestRounding,
+    OddDaysOpt,
+    OutFile,
+    PaymentOpt,
+    Periods,
+    Principal,
+    Rate,
+    RoundingOpt,
+    SemimonthlyDays,
+    Start,
+    Years,
+    build_loan,
+    dated_or_none,
+    dated_terms,
+    periods_from,
+    require,
+)
+from amort.cli_output import (
+    caution,
+    checks_table,
+    emit_json,
+    err,
+    errors,
+    figures_table,
+    money,
+    out,
+    schedule_table,
+    terms_rows,
+    totals_rows,
+)
 from amort.conventions import Frequency, Timing
-from amort.daycount import DayCount
-from amort.errors import AmortError, InvalidTerms
+from amort.errors import InvalidTerms
 from amort.io.csv import write_schedule_csv
-from amort.loan import Loan, parse_periods
-from amort.money import Rounding, parse_amount, parse_number, parse_rate
+from amort.money import Rounding, parse_amount, parse_rate
 from amort.quote import quote_payment, quote_principal, quote_rate, quote_term
 from amort.rates import Compounding
 
@@ -45,302 +75,6 @@ app = typer.Typer(
     add_completion=False,
     pretty_exceptions_enable=False,
 )
-
-out = Console(highlight=False, soft_wrap=False)
-err = Console(stderr=True, highlight=False, soft_wrap=True)
-
-FREQUENCIES = ", ".join(f.value for f in Frequency)
-ROUNDINGS = ", ".join(r.value for r in Rounding)
-
-Principal = Annotated[str | None, typer.Option("--principal", help="Amount lent, e.g. 250000.")]
-Rate = Annotated[
-    str | None, typer.Option("--rate", help="Nominal annual rate in percent, e.g. 6.5 or 6.5%.")
-]
-Periods = Annotated[str | None, typer.Option("--periods", help="Number of payments, e.g. 360.")]
-Years = Annotated[
-    str | None,
-    typer.Option(
-        "--years", help="Term in years instead of --periods (periods = years x frequency)."
-    ),
-]
-FrequencyOpt = Annotated[str, typer.Option("--frequency", help=f"Payments a year: {FREQUENCIES}.")]
-PaymentOpt = Annotated[str | None, typer.Option("--payment", help="Level payment per period.")]
-Balloon = Annotated[
-    str, typer.Option("--balloon", help="Balance left to pay with the last payment (default 0).")
-]
-Advance = Annotated[
-    bool,
-    typer.Option("--advance", help="Payments at the start of each period (annuity-due)."),
-]
-RoundingOpt = Annotated[
-    str, typer.Option("--rounding", help=f"Rounding of the level payment: {ROUNDINGS}.")
-]
-InterestRounding = Annotated[
-    str,
-    typer.Option("--interest-rounding", help=f"Rounding of each period's interest: {ROUNDINGS}."),
-]
-AsJson = Annotated[bool, typer.Option("--json", help="Print a JSON object instead of tables.")]
-DAY_COUNTS = ", ".join(d.value for d in DayCount)
-Start = Annotated[
-    str | None,
-    typer.Option("--start", help="Disbursement date, YYYY-MM-DD (makes the loan dated)."),
-]
-FirstPayment = Annotated[
-    str | None, typer.Option("--first-payment", help="First due date, YYYY-MM-DD.")
-]
-DayCountOpt = Annotated[str, typer.Option("--day-count", help=f"Interest day count: {DAY_COUNTS}.")]
-CompoundingOpt = Annotated[
-    str | None,
-    typer.Option(
-        "--compounding",
-        help="Compoundings a year when they differ from payments: a number, a frequency "
-        "name or 'continuous' (equal day count only).",
-    ),
-]
-BusinessDays = Annotated[
-    str,
-    typer.Option(
-        "--business-days",
-        help="Move due dates off weekends and holidays: none, following, "
-        "modified-following, preceding.",
-    ),
-]
-Holidays = Annotated[
-    str | None,
-    typer.Option("--holidays", help="Holiday calendar by country[-subdivision] code, e.g. US-NY."),
-]
-OddDaysOpt = Annotated[
-    str,
-    typer.Option(
-        "--odd-days",
-        help="Interest of the extra days of a long first period: accrue, separate, capitalise.",
-    ),
-]
-EndOfMonth = Annotated[
-    bool,
-    typer.Option("--end-of-month", help="A first due date at a month end stays at month ends."),
-]
-InterestDatesOpt = Annotated[
-    str,
-    typer.Option(
-        "--interest-dates",
-        help="Interest runs to the 'unadjusted' (scheduled) or 'adjusted' due dates.",
-    ),
-]
-SemimonthlyDays = Annotated[
-    str,
-    typer.Option(
-        "--semimonthly-days", help="The two due days of a semimonthly loan, e.g. 1,15 or 15,end."
-    ),
-]
-
-
-def _dated(
-    start: str | None,
-    first_payment: str | None,
-    day_count: str,
-    compounding: str | None,
-    business_days: str,
-    holidays: str | None,
-    odd_days: str,
-    end_of_month: bool,
-    interest_dates: str,
-    semimonthly_days: str,
-) -> dict[str, Any]:
-    """Return the Loan keywords of the dated options (the library validates them)."""
-    return {
-        "start": start,
-        "first_payment": first_payment,
-        "day_count": day_count,
-        "compounding": compounding,
-        "business_days": business_days,
-        "holidays": holidays,
-        "odd_days": odd_days,
-        "end_of_month": end_of_month,
-        "interest_dates": interest_dates,
-        "semimonthly_days": tuple(part.strip() for part in semimonthly_days.split(",")),
-    }
-
-
-OutFile = Annotated[
-    Path | None,
-    typer.Option(
-        "--out", help="Write the schedule to FILE.csv (kept if it exists unless --force)."
-    ),
-]
-Force = Annotated[bool, typer.Option("--force", help="Replace an existing --out file.")]
-
-
-# -- parsing helpers (strings in, library values out) ----------------------------------------
-
-
-def _require(value: str | None, option: str, verb: str) -> str:
-    if value is None or not str(value).strip():
-        raise InvalidTerms(f"'{option}' is required for 'amort {verb}'")
-    return value
-
-
-def _periods(periods: str | None, years: str | None, frequency: Frequency, verb: str) -> int:
-    if periods is not None and years is not None:
-        raise InvalidTerms("give either '--periods' or '--years', not both")
-    if years is not None:
-        span = parse_number(years, "years")
-        if span <= 0:
-            raise InvalidTerms(f"'years' must be > 0 (got {years!r})")
-        count = span * frequency.per_year
-        if count != count.to_integral_value():
-            raise InvalidTerms(
-                f"'years' {years} is not a whole number of {frequency.value} payments "
-                f"({count} payments)"
-            )
-        return parse_periods(int(count), "years x frequency")
-    return parse_periods(_require(periods, "--periods", verb))
-
-
-def _dated_or_none(
-    start: str | None,
-    first_payment: str | None,
-    day_count: str,
-    business_days: str,
-    holidays: str | None,
-    odd_days: str,
-    end_of_month: bool,
-    interest_dates: str,
-    semimonthly_days: str,
-) -> dict[str, Any] | None:
-    """Return the dated Loan keywords, or None when the loan is undated and plain."""
-    terms = _dated(
-        start,
-        first_payment,
-        day_count,
-        None,
-        business_days,
-        holidays,
-        odd_days,
-        end_of_month,
-        interest_dates,
-        semimonthly_days,
-    )
-    terms.pop("compounding")
-    plain = start is None and first_payment is None and day_count == "equal"
-    return None if plain else terms
-
-
-# -- output helpers ---------------------------------------------------------------------------
-
-
-def _plain(value: Any) -> Any:
-    """Return ``value`` as a JSON-ready value (Decimal and Fraction to float, dates to ISO)."""
-    if isinstance(value, (Decimal, Fraction)):
-        return float(value)
-    if isinstance(value, (date, pd.Timestamp)):
-        return value.isoformat()[:10]
-    if isinstance(value, dict):
-        return {k: _plain(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_plain(v) for v in value]
-    return value
-
-
-def _emit_json(payload: dict[str, Any]) -> None:
-    payload = {**_plain(payload), "caution": CAUTION}
-    sys.stdout.write(json.dumps(payload, indent=2) + "\n")
-
-
-def _money(value: Any) -> str:
-    return f"{Decimal(value):,.2f}"
-
-
-def _figures_table(title: str, rows: list[tuple[str, str]]) -> Table:
-    table = Table(title=title, show_header=False, title_justify="left", box=None, pad_edge=False)
-    table.add_column("figure", style="bold")
-    table.add_column("value", justify="right")
-    for name, value in rows:
-        table.add_row(name, value)
-    return table
-
-
-def _terms_rows(loan: Loan) -> list[tuple[str, str]]:
-    rows = [
-        ("principal", _money(loan.principal)),
-        ("annual rate", f"{(loan.annual_rate * 100).normalize():f} %"),
-        ("frequency", loan.frequency.value),
-        ("timing", loan.timing.value),
-    ]
-    if loan.compounding is not None:
-        rows.append(("compounding", str(loan.compounding)))
-    if loan.dated:
-        summary = loan.summary()
-        rows += [
-            ("start", f"{loan.start_date}"),
-            ("first payment", f"{summary['first_payment_date']}"),
-            ("day count", loan.day_count.value),
-            ("maturity", f"{summary['maturity_date']}"),
-        ]
-        if summary["odd_days_interest"]:
-            rows.append(
-                (f"odd-days interest ({loan.odd_days.value})", _money(summary["odd_days_interest"]))
-            )
-    return rows
-
-
-def _totals_rows(figures: dict[str, Any]) -> list[tuple[str, str]]:
-    rows = [
-        ("payment", _money(figures["payment"])),
-        ("number of payments", f"{figures['number_of_payments']:,}"),
-        ("final payment", _money(figures["final_payment"])),
-    ]
-    if figures["balloon"]:
-        rows.append(("balloon", _money(figures["balloon"])))
-    rows += [
-        ("total interest", _money(figures["total_interest"])),
-        ("total paid", _money(figures["total_paid"])),
-        ("reconciled", "yes" if figures["reconciled"] else "NO - see amort schedule"),
-    ]
-    return rows
-
-
-def _caution() -> None:
-    out.print(f"\n[dim]{CAUTION}[/dim]")
-
-
-@contextlib.contextmanager
-def _errors() -> Iterator[None]:
-    """Turn an :class:`AmortError` into one sentence on stderr and its exit code."""
-    try:
-        yield
-    except AmortError as exc:
-        err.print(f"Error: {exc}", markup=False)
-        raise typer.Exit(exc.exit_code) from None
-
-
-def _loan(
-    *,
-    principal: str | None,
-    rate: str | None,
-    periods: int | None,
-    frequency: Frequency,
-    payment: str | None,
-    balloon: str,
-    advance: bool,
-    rounding: str,
-    interest_rounding: str,
-    verb: str,
-    dated: dict[str, Any] | None = None,
-) -> Loan:
-    return Loan(
-        **(dated or {}),
-        principal=parse_amount(_require(principal, "--principal", verb), "principal"),
-        annual_rate=parse_rate(_require(rate, "--rate", verb), "rate", percent=True),
-        periods=periods,
-        frequency=frequency,
-        balloon=parse_amount(balloon, "balloon", allow_zero=True),
-        timing=Timing.ADVANCE if advance else Timing.ARREARS,
-        fixed_payment=None if payment is None else parse_amount(payment, "payment"),
-        rounding=Rounding.parse(rounding, "rounding"),
-        interest_rounding=Rounding.parse(interest_rounding, "interest-rounding"),
-    )
-
 
 # -- verbs --------------------------------------------------------------------------------------
 
@@ -371,12 +105,12 @@ def payment(
     as_json: AsJson = False,
 ) -> None:
     """The level payment for a principal, rate and term."""
-    with _errors():
+    with errors():
         freq = Frequency.parse(frequency)
-        loan = _loan(
+        loan = build_loan(
             principal=principal,
             rate=rate,
-            periods=_periods(periods, years, freq, "payment"),
+            periods=periods_from(periods, years, freq, "payment"),
             frequency=freq,
             payment=None,
             balloon=balloon,
@@ -384,7 +118,7 @@ def payment(
             rounding=rounding,
             interest_rounding=interest_rounding,
             verb="payment",
-            dated=_dated(
+            dated=dated_terms(
                 start,
                 first_payment,
                 day_count,
@@ -399,12 +133,12 @@ def payment(
         )
         figures = quote_payment(loan)
     if as_json:
-        _emit_json(figures)
+        emit_json(figures)
         return
-    out.print(_figures_table("Loan", _terms_rows(loan)))
+    out.print(figures_table("Loan", terms_rows(loan)))
     out.print()
-    out.print(_figures_table("Payment", _totals_rows(figures)))
-    _caution()
+    out.print(figures_table("Payment", totals_rows(figures)))
+    caution()
 
 
 @app.command(
@@ -431,19 +165,19 @@ def term(
     as_json: AsJson = False,
 ) -> None:
     """The number of payments (and the smaller final payment) a payment implies."""
-    with _errors():
-        loan = _loan(
+    with errors():
+        loan = build_loan(
             principal=principal,
             rate=rate,
             periods=None,
             frequency=Frequency.parse(frequency),
-            payment=_require(payment, "--payment", "term"),
+            payment=require(payment, "--payment", "term"),
             balloon=balloon,
             advance=advance,
             rounding="half-up",
             interest_rounding=interest_rounding,
             verb="term",
-            dated=_dated(
+            dated=dated_terms(
                 start,
                 first_payment,
                 day_count,
@@ -458,15 +192,15 @@ def term(
         )
         figures = quote_term(loan)
     if as_json:
-        _emit_json(figures)
+        emit_json(figures)
         return
-    rows = _totals_rows(figures)
+    rows = totals_rows(figures)
     rows.insert(2, ("exact term (closed form)", f"{figures['periods_exact']:,.4f} periods"))
     rows.insert(3, ("years", f"{figures['years']:.2f}"))
-    out.print(_figures_table("Loan", _terms_rows(loan)))
+    out.print(figures_table("Loan", terms_rows(loan)))
     out.print()
-    out.print(_figures_table("Term", rows))
-    _caution()
+    out.print(figures_table("Term", rows))
+    caution()
 
 
 @app.command(
@@ -519,17 +253,17 @@ def rate(
     if convert:
         _convert_rate(rate_given, source, compounding, target, target_compounding, as_json)
         return
-    with _errors():
+    with errors():
         freq = Frequency.parse(frequency)
         figures = quote_rate(
-            parse_amount(_require(principal, "--principal", "rate"), "principal"),
-            parse_amount(_require(payment, "--payment", "rate"), "payment"),
-            _periods(periods, years, freq, "rate"),
+            parse_amount(require(principal, "--principal", "rate"), "principal"),
+            parse_amount(require(payment, "--payment", "rate"), "payment"),
+            periods_from(periods, years, freq, "rate"),
             frequency=freq,
             balloon=parse_amount(balloon, "balloon", allow_zero=True),
             timing=Timing.ADVANCE if advance else Timing.ARREARS,
             compounding=None if compounding is None else Compounding.parse(compounding),
-            dated=_dated_or_none(
+            dated=dated_or_none(
                 start,
                 first_payment,
                 day_count,
@@ -542,11 +276,11 @@ def rate(
             ),
         )
     if as_json:
-        _emit_json(figures)
+        emit_json(figures)
         return
     rows = [
-        ("principal", _money(figures["principal"])),
-        ("payment", _money(figures["payment"])),
+        ("principal", money(figures["principal"])),
+        ("payment", money(figures["payment"])),
         ("number of payments", f"{figures['number_of_payments']:,}"),
         ("frequency", figures["frequency"]),
         (
@@ -555,10 +289,10 @@ def rate(
         ),
         ("periodic rate", f"{figures['periodic_rate'] * 100:.8f} %"),
         ("effective annual rate", f"{figures['effective_annual_rate'] * 100:.6f} %"),
-        ("payment at that rate (check)", _money(figures["payment_at_rate"])),
+        ("payment at that rate (check)", money(figures["payment_at_rate"])),
     ]
-    out.print(_figures_table("Implied rate", rows))
-    _caution()
+    out.print(figures_table("Implied rate", rows))
+    caution()
 
 
 def _convert_rate(
@@ -569,9 +303,9 @@ def _convert_rate(
     target_compounding: str | None,
     as_json: bool,
 ) -> None:
-    with _errors():
+    with errors():
         figures = rates.convert(
-            _require(rate_given, "--rate", "rate --convert"),
+            require(rate_given, "--rate", "rate --convert"),
             source=source,
             source_compounding=compounding,
             target=target,
@@ -579,7 +313,7 @@ def _convert_rate(
             percent=True,
         )
     if as_json:
-        _emit_json(figures)
+        emit_json(figures)
         return
     percent = lambda x: f"{x * 100:.10f} %"  # noqa: E731
     rows = [
@@ -593,8 +327,8 @@ def _convert_rate(
         ("continuous", percent(figures["continuous"])),
         ("exact", "yes" if figures["exact"] else "no (nearest double of an irrational rate)"),
     ]
-    out.print(_figures_table("Rate conversion", rows))
-    _caution()
+    out.print(figures_table("Rate conversion", rows))
+    caution()
 
 
 @app.command(
@@ -623,18 +357,18 @@ def principal_(
     as_json: AsJson = False,
 ) -> None:
     """The largest principal a payment repays (rounded down to the cent)."""
-    with _errors():
+    with errors():
         freq = Frequency.parse(frequency)
         figures = quote_principal(
-            parse_amount(_require(payment, "--payment", "principal"), "payment"),
-            parse_rate(_require(rate, "--rate", "principal"), "rate", percent=True),
-            _periods(periods, years, freq, "principal"),
+            parse_amount(require(payment, "--payment", "principal"), "payment"),
+            parse_rate(require(rate, "--rate", "principal"), "rate", percent=True),
+            periods_from(periods, years, freq, "principal"),
             frequency=freq,
             balloon=parse_amount(balloon, "balloon", allow_zero=True),
             timing=Timing.ADVANCE if advance else Timing.ARREARS,
             rounding=Rounding.parse(rounding, "rounding"),
             compounding=None if compounding is None else Compounding.parse(compounding),
-            dated=_dated_or_none(
+            dated=dated_or_none(
                 start,
                 first_payment,
                 day_count,
@@ -647,18 +381,18 @@ def principal_(
             ),
         )
     if as_json:
-        _emit_json(figures)
+        emit_json(figures)
         return
     rows = [
-        ("principal", _money(figures["principal"])),
-        ("payment given", _money(figures["payment_given"])),
-        ("payment for that principal (check)", _money(figures["payment"])),
+        ("principal", money(figures["principal"])),
+        ("payment given", money(figures["payment_given"])),
+        ("payment for that principal (check)", money(figures["payment"])),
         ("number of payments", f"{figures['number_of_payments']:,}"),
-        ("total interest", _money(figures["total_interest"])),
-        ("total paid", _money(figures["total_paid"])),
+        ("total interest", money(figures["total_interest"])),
+        ("total paid", money(figures["total_paid"])),
     ]
-    out.print(_figures_table("Principal", rows))
-    _caution()
+    out.print(figures_table("Principal", rows))
+    caution()
 
 
 @app.command(
@@ -698,14 +432,14 @@ def schedule(
     as_json: AsJson = False,
 ) -> None:
     """One loan's schedule to the cent, with its reconciliation against the closed form."""
-    with _errors():
+    with errors():
         freq = Frequency.parse(frequency)
         count = (
             None
             if payment is not None and periods is None and years is None
-            else (_periods(periods, years, freq, "schedule"))
+            else (periods_from(periods, years, freq, "schedule"))
         )
-        loan = _loan(
+        loan = build_loan(
             principal=principal,
             rate=rate,
             periods=count,
@@ -716,7 +450,7 @@ def schedule(
             rounding=rounding,
             interest_rounding=interest_rounding,
             verb="schedule",
-            dated=_dated(
+            dated=dated_terms(
                 start,
                 first_payment,
                 day_count,
@@ -751,55 +485,19 @@ def schedule(
                 shown = shown.drop(columns=["due_date"])
             records = shown.to_dict(orient="records")
             payload["schedule"] = records
-        _emit_json(payload)
+        emit_json(payload)
         return
     if written is None:
-        out.print(_schedule_table(frame))
+        out.print(schedule_table(frame))
         out.print()
-    out.print(_figures_table("Loan", _terms_rows(loan)))
+    out.print(figures_table("Loan", terms_rows(loan)))
     out.print()
-    out.print(_figures_table("Totals", _totals_rows(figures)))
+    out.print(figures_table("Totals", totals_rows(figures)))
     out.print()
-    out.print(_checks_table(check))
+    out.print(checks_table(check))
     if written is not None:
         out.print(f"\nwrote {len(frame):,} rows to {written}")
-    _caution()
-
-
-def _cell(column: str, value: Any) -> str:
-    if column == "period" or column == "days":
-        return f"{int(value):,}"
-    if column == "due_date":
-        return "" if value is None or value != value else f"{value:%Y-%m-%d}"
-    if column == "rate":
-        return f"{value * 100:.4f} %"
-    return f"{value:,.2f}"
-
-
-def _schedule_table(frame: Any) -> Table:
-    table = Table(title="Schedule", title_justify="left", header_style="bold cyan")
-    dated = bool(frame["due_date"].notna().any())
-    columns = [c for c in frame.columns if c != "due_date" or dated]
-    for column in columns:
-        table.add_column(column.replace("_", " "), justify="right")
-    for record in frame.itertuples(index=False):
-        values = record._asdict()
-        table.add_row(*(_cell(c, values[c]) for c in columns))
-    return table
-
-
-def _checks_table(check: Any) -> Table:
-    table = Table(
-        title="Reconciliation against the closed form",
-        title_justify="left",
-        header_style="bold cyan",
-    )
-    table.add_column("check")
-    table.add_column("figures", justify="right")
-    table.add_column("result")
-    for name, figures, passed in check.checks:
-        table.add_row(name, figures, "pass" if passed else "[bold red]FAIL[/bold red]")
-    return table
+    caution()
 
 
 @app.callback(invoke_without_command=True)

@@ -1,0 +1,223 @@
+"""The CLI's options and the parsing of their strings (typer declarations; no printing).
+
+Each option is declared once as an ``Annotated`` type and shared by the verbs
+of :mod:`amort.cli`; strings are turned into library values by the library's
+own parsers, so a bad value gets the library's one-sentence message.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated, Any
+
+import typer
+
+from amort.conventions import Frequency, Timing
+from amort.daycount import DayCount
+from amort.errors import InvalidTerms
+from amort.loan import Loan, parse_periods
+from amort.money import Rounding, parse_amount, parse_number, parse_rate
+
+FREQUENCIES = ", ".join(f.value for f in Frequency)
+ROUNDINGS = ", ".join(r.value for r in Rounding)
+
+Principal = Annotated[str | None, typer.Option("--principal", help="Amount lent, e.g. 250000.")]
+Rate = Annotated[
+    str | None, typer.Option("--rate", help="Nominal annual rate in percent, e.g. 6.5 or 6.5%.")
+]
+Periods = Annotated[str | None, typer.Option("--periods", help="Number of payments, e.g. 360.")]
+Years = Annotated[
+    str | None,
+    typer.Option(
+        "--years", help="Term in years instead of --periods (periods = years x frequency)."
+    ),
+]
+FrequencyOpt = Annotated[str, typer.Option("--frequency", help=f"Payments a year: {FREQUENCIES}.")]
+PaymentOpt = Annotated[str | None, typer.Option("--payment", help="Level payment per period.")]
+Balloon = Annotated[
+    str, typer.Option("--balloon", help="Balance left to pay with the last payment (default 0).")
+]
+Advance = Annotated[
+    bool,
+    typer.Option("--advance", help="Payments at the start of each period (annuity-due)."),
+]
+RoundingOpt = Annotated[
+    str, typer.Option("--rounding", help=f"Rounding of the level payment: {ROUNDINGS}.")
+]
+InterestRounding = Annotated[
+    str,
+    typer.Option("--interest-rounding", help=f"Rounding of each period's interest: {ROUNDINGS}."),
+]
+AsJson = Annotated[bool, typer.Option("--json", help="Print a JSON object instead of tables.")]
+DAY_COUNTS = ", ".join(d.value for d in DayCount)
+Start = Annotated[
+    str | None,
+    typer.Option("--start", help="Disbursement date, YYYY-MM-DD (makes the loan dated)."),
+]
+FirstPayment = Annotated[
+    str | None, typer.Option("--first-payment", help="First due date, YYYY-MM-DD.")
+]
+DayCountOpt = Annotated[str, typer.Option("--day-count", help=f"Interest day count: {DAY_COUNTS}.")]
+CompoundingOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--compounding",
+        help="Compoundings a year when they differ from payments: a number, a frequency "
+        "name or 'continuous' (equal day count only).",
+    ),
+]
+BusinessDays = Annotated[
+    str,
+    typer.Option(
+        "--business-days",
+        help="Move due dates off weekends and holidays: none, following, "
+        "modified-following, preceding.",
+    ),
+]
+Holidays = Annotated[
+    str | None,
+    typer.Option("--holidays", help="Holiday calendar by country[-subdivision] code, e.g. US-NY."),
+]
+OddDaysOpt = Annotated[
+    str,
+    typer.Option(
+        "--odd-days",
+        help="Interest of the extra days of a long first period: accrue, separate, capitalise.",
+    ),
+]
+EndOfMonth = Annotated[
+    bool,
+    typer.Option("--end-of-month", help="A first due date at a month end stays at month ends."),
+]
+InterestDatesOpt = Annotated[
+    str,
+    typer.Option(
+        "--interest-dates",
+        help="Interest runs to the 'unadjusted' (scheduled) or 'adjusted' due dates.",
+    ),
+]
+SemimonthlyDays = Annotated[
+    str,
+    typer.Option(
+        "--semimonthly-days", help="The two due days of a semimonthly loan, e.g. 1,15 or 15,end."
+    ),
+]
+
+
+def dated_terms(
+    start: str | None,
+    first_payment: str | None,
+    day_count: str,
+    compounding: str | None,
+    business_days: str,
+    holidays: str | None,
+    odd_days: str,
+    end_of_month: bool,
+    interest_dates: str,
+    semimonthly_days: str,
+) -> dict[str, Any]:
+    """Return the Loan keywords of the dated options (the library validates them)."""
+    return {
+        "start": start,
+        "first_payment": first_payment,
+        "day_count": day_count,
+        "compounding": compounding,
+        "business_days": business_days,
+        "holidays": holidays,
+        "odd_days": odd_days,
+        "end_of_month": end_of_month,
+        "interest_dates": interest_dates,
+        "semimonthly_days": tuple(part.strip() for part in semimonthly_days.split(",")),
+    }
+
+
+OutFile = Annotated[
+    Path | None,
+    typer.Option(
+        "--out", help="Write the schedule to FILE.csv (kept if it exists unless --force)."
+    ),
+]
+Force = Annotated[bool, typer.Option("--force", help="Replace an existing --out file.")]
+
+
+# -- parsing helpers (strings in, library values out) ----------------------------------------
+
+
+def require(value: str | None, option: str, verb: str) -> str:
+    if value is None or not str(value).strip():
+        raise InvalidTerms(f"'{option}' is required for 'amort {verb}'")
+    return value
+
+
+def periods_from(periods: str | None, years: str | None, frequency: Frequency, verb: str) -> int:
+    if periods is not None and years is not None:
+        raise InvalidTerms("give either '--periods' or '--years', not both")
+    if years is not None:
+        span = parse_number(years, "years")
+        if span <= 0:
+            raise InvalidTerms(f"'years' must be > 0 (got {years!r})")
+        count = span * frequency.per_year
+        if count != count.to_integral_value():
+            raise InvalidTerms(
+                f"'years' {years} is not a whole number of {frequency.value} payments "
+                f"({count} payments)"
+            )
+        return parse_periods(int(count), "years x frequency")
+    return parse_periods(require(periods, "--periods", verb))
+
+
+def dated_or_none(
+    start: str | None,
+    first_payment: str | None,
+    day_count: str,
+    business_days: str,
+    holidays: str | None,
+    odd_days: str,
+    end_of_month: bool,
+    interest_dates: str,
+    semimonthly_days: str,
+) -> dict[str, Any] | None:
+    """Return the dated Loan keywords, or None when the loan is undated and plain."""
+    terms = dated_terms(
+        start,
+        first_payment,
+        day_count,
+        None,
+        business_days,
+        holidays,
+        odd_days,
+        end_of_month,
+        interest_dates,
+        semimonthly_days,
+    )
+    terms.pop("compounding")
+    plain = start is None and first_payment is None and day_count == "equal"
+    return None if plain else terms
+
+
+def build_loan(
+    *,
+    principal: str | None,
+    rate: str | None,
+    periods: int | None,
+    frequency: Frequency,
+    payment: str | None,
+    balloon: str,
+    advance: bool,
+    rounding: str,
+    interest_rounding: str,
+    verb: str,
+    dated: dict[str, Any] | None = None,
+) -> Loan:
+    return Loan(
+        **(dated or {}),
+        principal=parse_amount(require(principal, "--principal", verb), "principal"),
+        annual_rate=parse_rate(require(rate, "--rate", verb), "rate", percent=True),
+        periods=periods,
+        frequency=frequency,
+        balloon=parse_amount(balloon, "balloon", allow_zero=True),
+        timing=Timing.ADVANCE if advance else Timing.ARREARS,
+        fixed_payment=None if payment is None else parse_amount(payment, "payment"),
+        rounding=Rounding.parse(rounding, "rounding"),
+        interest_rounding=Rounding.parse(interest_rounding, "interest-rounding"),
+    )
