@@ -35,6 +35,8 @@ class BatchTerms:
     period_rate_num, period_rate_den: optional ``(max periods, loans)`` arrays of
         each period's exact rate (dated loans); they replace ``rate_num / rate_den``
         period by period, and may be object arrays of Python integers.
+    period_payment, period_covers_interest: optional ``(max periods, loans)``
+        payment rules (see :attr:`structured`); they replace ``payment``.
     """
 
     principal: IntArray
@@ -46,6 +48,8 @@ class BatchTerms:
     advance: BoolArray
     period_rate_num: IntArray | None = None
     period_rate_den: IntArray | None = None
+    period_payment: IntArray | None = None
+    period_covers_interest: BoolArray | None = None
 
     def __post_init__(self) -> None:
         size = self.principal.shape
@@ -58,8 +62,19 @@ class BatchTerms:
             raise ValueError(
                 "BatchTerms needs both period_rate_num and period_rate_den, or neither"
             )
+        if (self.period_payment is None) != (self.period_covers_interest is None):
+            raise ValueError(
+                "BatchTerms needs both period_payment and period_covers_interest, or neither"
+            )
+        if self.period_payment is not None and bool(self.advance.any()):
+            raise ValueError("per-period payment rules are for payments in arrears")
+        shape = (int(self.periods.max(initial=0)), *size)
+        for name in ("period_payment", "period_covers_interest"):
+            if getattr(self, name) is not None and getattr(self, name).shape != shape:
+                raise ValueError(
+                    f"BatchTerms.{name} has shape {getattr(self, name).shape}, not {shape}"
+                )
         if self.period_rate_num is not None and self.period_rate_den is not None:
-            shape = (int(self.periods.max(initial=0)), *size)
             for name in ("period_rate_num", "period_rate_den"):
                 if getattr(self, name).shape != shape:
                     raise ValueError(
@@ -68,8 +83,17 @@ class BatchTerms:
 
     @property
     def varies(self) -> bool:
-        """True when the batch carries a rate for each period (dated loans)."""
-        return self.period_rate_num is not None
+        """True when the batch carries a rate or a payment rule for each period."""
+        return self.period_rate_num is not None or self.period_payment is not None
+
+    @property
+    def structured(self) -> bool:
+        """True when each period has its own payment rule (interest-only, equal principal).
+
+        Period k then pays ``period_payment[k-1]``, plus that period's interest
+        where ``period_covers_interest[k-1]`` is true (arrears only).
+        """
+        return self.period_payment is not None
 
     def last_rates(self) -> tuple[IntArray, IntArray]:
         """Return each loan's rate in its last period, as (numerators, denominators)."""

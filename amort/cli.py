@@ -28,6 +28,7 @@ from amort.cli_options import (
     FrequencyOpt,
     Holidays,
     InterestDatesOpt,
+    InterestOnly,
     InterestRounding,
     OddDaysOpt,
     OutFile,
@@ -38,6 +39,7 @@ from amort.cli_options import (
     RoundingOpt,
     SemimonthlyDays,
     Start,
+    StructureOpt,
     Years,
     build_loan,
     dated_or_none,
@@ -102,6 +104,8 @@ def payment(
     end_of_month: EndOfMonth = False,
     interest_dates: InterestDatesOpt = "unadjusted",
     semimonthly_days: SemimonthlyDays = "1,15",
+    structure: StructureOpt = "level",
+    interest_only: InterestOnly = 0,
     as_json: AsJson = False,
 ) -> None:
     """The level payment for a principal, rate and term."""
@@ -118,6 +122,8 @@ def payment(
             rounding=rounding,
             interest_rounding=interest_rounding,
             verb="payment",
+            structure=structure,
+            interest_only=interest_only,
             dated=dated_terms(
                 start,
                 first_payment,
@@ -429,6 +435,8 @@ def schedule(
     end_of_month: EndOfMonth = False,
     interest_dates: InterestDatesOpt = "unadjusted",
     semimonthly_days: SemimonthlyDays = "1,15",
+    structure: StructureOpt = "level",
+    interest_only: InterestOnly = 0,
     as_json: AsJson = False,
 ) -> None:
     """One loan's schedule to the cent, with its reconciliation against the closed form."""
@@ -450,6 +458,8 @@ def schedule(
             rounding=rounding,
             interest_rounding=interest_rounding,
             verb="schedule",
+            structure=structure,
+            interest_only=interest_only,
             dated=dated_terms(
                 start,
                 first_payment,

@@ -12,7 +12,7 @@ from typing import Annotated, Any
 
 import typer
 
-from amort.conventions import Frequency, Timing
+from amort.conventions import Frequency, Structure, Timing
 from amort.daycount import DayCount
 from amort.errors import InvalidTerms
 from amort.loan import Loan, parse_periods
@@ -137,6 +137,17 @@ OutFile = Annotated[
         "--out", help="Write the schedule to FILE.csv (kept if it exists unless --force)."
     ),
 ]
+StructureOpt = Annotated[
+    str,
+    typer.Option(
+        "--structure",
+        help="How principal is repaid: level, equal-principal (straight-line) or bullet.",
+    ),
+]
+InterestOnly = Annotated[
+    int,
+    typer.Option("--interest-only", help="Interest-only payments before amortisation begins."),
+]
 Force = Annotated[bool, typer.Option("--force", help="Replace an existing --out file.")]
 
 
@@ -208,9 +219,13 @@ def build_loan(
     interest_rounding: str,
     verb: str,
     dated: dict[str, Any] | None = None,
+    structure: str = "level",
+    interest_only: int = 0,
 ) -> Loan:
     return Loan(
         **(dated or {}),
+        structure=Structure.parse(structure),
+        interest_only_periods=interest_only,
         principal=parse_amount(require(principal, "--principal", verb), "principal"),
         annual_rate=parse_rate(require(rate, "--rate", verb), "rate", percent=True),
         periods=periods,

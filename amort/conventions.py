@@ -113,3 +113,23 @@ class Timing(enum.Enum):
         if text in ("immediate", "in-arrears", "end"):
             return cls.ARREARS
         raise InvalidTerms(f"{field!r} must be 'arrears' or 'advance' (got {describe(value)})")
+
+
+class Structure(enum.Enum):
+    """How the principal is repaid.
+
+    ``LEVEL``: a level payment (after any interest-only periods). ``EQUAL_PRINCIPAL``:
+    the same principal every period plus that period's interest (straight-line).
+    ``BULLET``: interest only every period, all principal with the last payment.
+    """
+
+    LEVEL = "level"
+    EQUAL_PRINCIPAL = "equal-principal"
+    BULLET = "bullet"
+
+    @classmethod
+    def parse(cls, value: Structure | str, field: str = "structure") -> Structure:
+        """Return the structure named by ``value`` (``"straight-line"`` means equal principal)."""
+        return parse_choice(
+            cls, value, field, {"straight-line": "equal-principal", "linear": "equal-principal"}
+        )

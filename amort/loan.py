@@ -23,7 +23,7 @@ import pandas as pd
 
 from amort import calendar, solve, variable
 from amort.calendar import BusinessDay
-from amort.conventions import Frequency, Timing
+from amort.conventions import Frequency, Structure, Timing
 from amort.dated import DatedPlan, InterestDates, OddDays, plan
 from amort.daycount import DayCount
 from amort.errors import InvalidTerms, NoSolution, describe
@@ -128,6 +128,8 @@ class Loan:
     semimonthly_days: tuple[int, int] = (1, 15)
     odd_days: OddDays = OddDays.ACCRUE
     interest_dates: InterestDates = InterestDates.UNADJUSTED
+    structure: Structure = Structure.LEVEL
+    interest_only_periods: int = 0
 
     def __post_init__(self) -> None:
         set_ = functools.partial(object.__setattr__, self)
@@ -148,6 +150,7 @@ class Loan:
         elif self.fixed_payment is None:
             raise InvalidTerms("give 'periods' (the number of payments) or 'fixed_payment'")
         self._normalise_dates(set_)
+        self._normalise_structure(set_)
         per_year = self.frequency.per_year
         if self.annual_rate > per_year:
             raise InvalidTerms(
@@ -159,6 +162,44 @@ class Loan:
         self._check_payment_covers_interest()
 
     # -- derived terms -----------------------------------------------------------------
+
+    def _normalise_structure(self, set_: Any) -> None:
+        set_("structure", Structure.parse(self.structure))
+        only = self.interest_only_periods
+        if isinstance(only, bool) or not isinstance(only, (int, np.integer)) or only < 0:
+            raise InvalidTerms(
+                f"'interest_only_periods' must be a whole number >= 0 (got {describe(only)})"
+            )
+        set_("interest_only_periods", int(only))
+        if not self.structured:
+            return
+        if self.periods is None or self.fixed_payment is not None:
+            raise InvalidTerms(
+                f"structure {self.structure.value!r} with interest-only periods needs 'periods' "
+                "and no 'fixed_payment'"
+                if self.structure is Structure.LEVEL
+                else f"structure {self.structure.value!r} needs 'periods' and no 'fixed_payment'"
+            )
+        if self.advance:
+            raise InvalidTerms(
+                f"structure {self.structure.value!r} and interest-only periods are for "
+                "payments in arrears in this version"
+            )
+        if self.structure is Structure.BULLET and self.balloon > 0:
+            raise InvalidTerms(
+                "a bullet loan repays all its principal with the last payment; give no 'balloon'"
+            )
+        if self.structure is not Structure.BULLET and self.interest_only_periods >= self.periods:
+            raise InvalidTerms(
+                f"'interest_only_periods' must be fewer than the {self.periods:,} payments "
+                f"(got {self.interest_only_periods:,}); for interest only to the end use "
+                "structure 'bullet'"
+            )
+
+    @property
+    def structured(self) -> bool:
+        """True when payments follow a rule other than one level payment throughout."""
+        return self.structure is not Structure.LEVEL or self.interest_only_periods > 0
 
     def _normalise_dates(self, set_: Any) -> None:
         set_("day_count", DayCount.parse(self.day_count))
@@ -353,6 +394,15 @@ class Loan:
 
     def _check_payment_covers_interest(self) -> None:
         pay = self._level_cents
+        if self.structure is Structure.BULLET:
+            return
+        if self.structure is Structure.EQUAL_PRINCIPAL:
+            if pay <= 0:
+                raise InvalidTerms(
+                    f"the principal part of {self.principal:,} over the amortising payments "
+                    f"rounds to {from_cents(pay):,}; use fewer payments"
+                )
+            return
         if pay <= 0:
             raise InvalidTerms(
                 f"the level payment of {self.principal:,} over {self.periods:,} payments "
@@ -378,14 +428,21 @@ class Loan:
 
     @functools.cached_property
     def _level_cents(self) -> int:
+        """The regular amount: the level payment, the equal principal part, or 0 (bullet)."""
         if self.fixed_payment is not None:
             return to_cents(self.fixed_payment)
         assert self.periods is not None
+        owed = to_cents(self.principal) + self._capitalised_cents
+        amortising = self.periods - self.interest_only_periods
+        if self.structure is Structure.BULLET:
+            return 0
+        if self.structure is Structure.EQUAL_PRINCIPAL:
+            return round_ratio(owed - to_cents(self.balloon), amortising, self.rounding)
         rates = self._rates_for(self.periods)
         if rates is not None:
             return level_payment_cents_variable(
-                to_cents(self.principal) + self._capitalised_cents,
-                rates,
+                owed,
+                rates[self.interest_only_periods :],
                 to_cents(self.balloon),
                 self.advance,
                 self.rounding,
@@ -394,10 +451,10 @@ class Loan:
         one = lambda v: np.array([v], dtype=object if rate.denominator >= 2**62 else np.int64)  # noqa: E731
         return int(
             level_payment_cents(
-                one(to_cents(self.principal) + self._capitalised_cents),
+                one(owed),
                 one(rate.numerator),
                 one(rate.denominator),
-                one(self.periods),
+                one(amortising),
                 one(to_cents(self.balloon)),
                 np.array([self.advance]),
                 self.rounding,
@@ -406,8 +463,19 @@ class Loan:
 
     @property
     def payment(self) -> Decimal:
-        """The level payment per period in currency units (the closed form rounded to the cent)."""
-        return from_cents(self._level_cents)
+        """The level payment per period in currency units (the closed form rounded to the cent).
+
+        After interest-only periods it is the level payment that follows them.
+        For an equal-principal loan it is the first amortising payment
+        (principal part plus that period's interest), for a bullet loan the first
+        period's interest payment; they fall from there.
+        """
+        if self.structure is Structure.LEVEL:
+            return from_cents(self._level_cents)
+        row = min(self.interest_only_periods, self.number_of_payments - 1)
+        if self.structure is Structure.BULLET:
+            row = 0
+        return from_cents(int(self._table.payment[row]))
 
     def payment_factors(self) -> tuple[float, float]:
         """Return ``(W, v_N)``: the level payment's closed form is ``P = (B - F v_N) / W``.
@@ -492,7 +560,22 @@ class Loan:
             kind: Any = object if wide else np.int64
             per_num = np.array([[r.numerator] for r in rates], dtype=kind)
             per_den = np.array([[r.denominator] for r in rates], dtype=kind)
+        rule_payment = rule_covers = None
+        if self.structured:
+            ks = np.arange(1, horizon + 1)
+            only = ks <= self.interest_only_periods
+            if self.structure is Structure.LEVEL:
+                rule_payment = np.where(only, 0, self._level_cents)[:, None].astype(np.int64)
+                rule_covers = only[:, None]
+            elif self.structure is Structure.EQUAL_PRINCIPAL:
+                rule_payment = np.where(only, 0, self._level_cents)[:, None].astype(np.int64)
+                rule_covers = np.ones((horizon, 1), dtype=bool)
+            else:
+                rule_payment = np.zeros((horizon, 1), dtype=np.int64)
+                rule_covers = np.ones((horizon, 1), dtype=bool)
         return BatchTerms(
+            period_payment=rule_payment,
+            period_covers_interest=rule_covers,
             principal=np.array([to_cents(self.principal) + self._capitalised_cents]),
             rate_num=one(rate.numerator),
             rate_den=one(rate.denominator),
@@ -599,6 +682,13 @@ class Loan:
             "first_payment_date": first_due,
             "day_count": self.day_count.value,
             "compounding": None if self.compounding is None else self.compounding.name,
+            "structure": self.structure.value,
+            "interest_only_periods": self.interest_only_periods,
+            "principal_part": (
+                from_cents(self._level_cents)
+                if self.structure is Structure.EQUAL_PRINCIPAL
+                else None
+            ),
             "rounding": self.rounding.value,
             "interest_rounding": self.interest_rounding.value,
         }

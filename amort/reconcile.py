@@ -168,9 +168,13 @@ def reconcile(
     gap_bound = _per_loan(np.maximum, bound_shown, offsets, rows)
 
     f = terms.balloon.astype(np.float64)
-    adjustment = table.final_payment.astype(np.float64) - level
+    scheduled_final = level
+    if terms.structured:
+        sched = scheduled_payments(terms, table)
+        scheduled_final = sched[np.maximum(rows - 1, 0), np.arange(loans)]
+    adjustment = table.final_payment.astype(np.float64) - scheduled_final
     with np.errstate(over="ignore", invalid="ignore"):
-        x_n, s_n, s_prev, scale_n, a = _closed_form_final(terms, rows)
+        x_n, s_n, s_prev, scale_n, a = _closed_form_final(terms, rows, table)
         expected = np.where(adv_loan, (x_n - f) / a, x_n - f)
         adj_bound = np.where(adv_loan, u * s_prev + 1.5, u * s_n) + FLOAT_ALLOWANCE * scale_n
         adjustment_ok = ~np.isfinite(adj_bound) | (np.abs(adjustment - expected) <= adj_bound)
@@ -226,8 +230,10 @@ def reconcile(
 
 
 def _float_rates(terms: BatchTerms) -> FloatArray:
-    """Return each period's rate as float64, ``(max periods, loans)`` (dated batches)."""
-    assert terms.period_rate_num is not None and terms.period_rate_den is not None
+    """Return each period's rate as float64, ``(max periods, loans)``."""
+    if terms.period_rate_num is None or terms.period_rate_den is None:
+        horizon = int(terms.periods.max(initial=0))
+        return np.broadcast_to(_loan_rates(terms), (horizon, terms.size)).copy()
     num, den = terms.period_rate_num, terms.period_rate_den
     if num.dtype == object or den.dtype == object:
         flat = [
@@ -252,6 +258,13 @@ def _closed_form_rows(
     idx = table.loan
     b0 = terms.principal.astype(np.float64)
     level = terms.payment.astype(np.float64)
+    if terms.structured:
+        rates = _float_rates(terms)
+        at = (table.period - 1, idx)
+        sched = scheduled_payments(terms, table)
+        exact = variable.balances_paying(b0, rates, sched, terms.advance)[at]
+        scale = variable.balance_scales_paying(b0, rates, sched, terms.advance)[at]
+        return exact, scale, variable.accumulation_factors(rates)[at]
     if terms.varies:
         rates = _float_rates(terms)
         at = (table.period - 1, idx)
@@ -266,8 +279,22 @@ def _closed_form_rows(
     return exact, scale, recurrence.accumulation_factor(i_row, k)
 
 
+def scheduled_payments(terms: BatchTerms, table: CentsTable) -> FloatArray:
+    """Return what each period was due to pay under its rule, cents, ``(max periods, loans)``.
+
+    A structured period pays its amount plus, where it covers interest, the
+    period's (rounded) interest; periods past a loan's last row are 0.
+    """
+    assert terms.period_payment is not None and terms.period_covers_interest is not None
+    interest = np.zeros(terms.period_payment.shape, dtype=np.float64)
+    interest[table.period - 1, table.loan] = table.interest
+    return terms.period_payment.astype(np.float64) + np.where(
+        terms.period_covers_interest, interest, 0.0
+    )
+
+
 def _closed_form_final(
-    terms: BatchTerms, rows: npt.NDArray[np.int64]
+    terms: BatchTerms, rows: npt.NDArray[np.int64], table: CentsTable | None = None
 ) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray, FloatArray]:
     """Return per loan: ``x_n``, ``s_n``, ``s_{n-1}``, the scale and ``a_n`` at its last row."""
     b0 = terms.principal.astype(np.float64)
@@ -276,9 +303,14 @@ def _closed_form_final(
         rates = _float_rates(terms)
         cols = np.arange(terms.size)
         last = np.maximum(rows - 1, 0)
-        x = variable.balances(b0, rates, level, terms.advance)
+        if table is not None and terms.structured:
+            sched = scheduled_payments(terms, table)
+            x = variable.balances_paying(b0, rates, sched, terms.advance)
+            sc = variable.balance_scales_paying(b0, rates, sched, terms.advance)
+        else:
+            x = variable.balances(b0, rates, level, terms.advance)
+            sc = variable.balance_scales(b0, rates, level, terms.advance)
         acc = variable.accumulation_factors(rates)
-        sc = variable.balance_scales(b0, rates, level, terms.advance)
         s_prev = np.where(rows >= 2, acc[np.maximum(rows - 2, 0), cols], 0.0)
         return x[last, cols], acc[last, cols], s_prev, sc[last, cols], 1.0 + rates[last, cols]
     i = _loan_rates(terms)

@@ -76,6 +76,8 @@ def _run_general(terms: BatchTerms, interest_rounding: Rounding) -> CentsTable:
     last = terms.periods
     advance = terms.advance
     remainder = advance_remainder(terms, interest_rounding, dtype)
+    rule_payment = None if terms.period_payment is None else terms.period_payment.astype(dtype)
+    rule_covers = terms.period_covers_interest
     varying_num = None if terms.period_rate_num is None else terms.period_rate_num.astype(dtype)
     varying_den = None if terms.period_rate_den is None else terms.period_rate_den.astype(dtype)
 
@@ -101,6 +103,9 @@ def _run_general(terms: BatchTerms, interest_rounding: Rounding) -> CentsTable:
         final = last[at] == k
         # In arrears the period's interest is earned on the opening balance.
         intr = interest_cents(balance, n_, d_, interest_rounding)
+        if rule_payment is not None and rule_covers is not None:
+            # A structured period pays its own amount, plus its interest where it covers it.
+            p = rule_payment[k - 1, at] + np.where(rule_covers[k - 1, at], intr, 0)
         due = balance + intr - f
         closes = final | (due <= p)
         pay = np.where(closes, due, p)

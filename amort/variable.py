@@ -115,3 +115,38 @@ def accumulation_factors(rates: npt.ArrayLike) -> FloatArray:
     """
     v = discount_factors(rates)
     return np.asarray(np.cumsum(v, axis=0) / v, dtype=np.float64)
+
+
+def balances_paying(
+    principal: npt.ArrayLike,
+    rates: npt.ArrayLike,
+    payments: npt.ArrayLike,
+    advance: npt.ArrayLike = False,
+) -> FloatArray:
+    """Return the exact balance after each period for a payment of its own each period.
+
+    ``B_n = (B_0 - sum_{k<=n} P_k w_k) / v_n``; ``payments`` has the shape of
+    ``rates``, ``(N, loans)``.
+
+    >>> balances_paying(1000, [[0.1], [0.1]], [[100.0], [1000.0]]).round(2).ravel().tolist()
+    [1000.0, 100.0]
+    """
+    weights = _payment_weights(rates, advance)
+    v = discount_factors(rates)
+    b0 = np.asarray(principal, dtype=np.float64)
+    p = np.asarray(payments, dtype=np.float64)
+    return np.asarray((b0 - np.cumsum(p * weights, axis=0)) / v, dtype=np.float64)
+
+
+def balance_scales_paying(
+    principal: npt.ArrayLike,
+    rates: npt.ArrayLike,
+    payments: npt.ArrayLike,
+    advance: npt.ArrayLike = False,
+) -> FloatArray:
+    """Return ``(B_0 + sum_{k<=n} |P_k| w_k) / v_n``, the size behind :func:`balances_paying`."""
+    weights = _payment_weights(rates, advance)
+    v = discount_factors(rates)
+    b0 = np.asarray(principal, dtype=np.float64)
+    p = np.abs(np.asarray(payments, dtype=np.float64))
+    return np.asarray((b0 + np.cumsum(p * weights, axis=0)) / v, dtype=np.float64)

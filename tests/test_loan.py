@@ -263,6 +263,9 @@ def test_summary_keys_and_values() -> None:
         "first_payment_date",
         "day_count",
         "compounding",
+        "structure",
+        "interest_only_periods",
+        "principal_part",
         "rounding",
         "interest_rounding",
     ]

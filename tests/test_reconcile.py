@@ -28,7 +28,7 @@ MODES = list(Rounding)
 
 def batch(loans: list[Loan]) -> BatchTerms:
     parts = [loan.batch_terms() for loan in loans]
-    names = [f.name for f in dataclasses.fields(BatchTerms) if not f.name.startswith("period_rate")]
+    names = [f.name for f in dataclasses.fields(BatchTerms) if not f.name.startswith("period_")]
     return BatchTerms(**{n: np.concatenate([getattr(p, n) for p in parts]) for n in names})
 
 

@@ -561,7 +561,7 @@ def _batch(loans: list[Loan]) -> amort.schedule.BatchTerms:
     fields = [
         f.name
         for f in dataclasses.fields(amort.schedule.BatchTerms)
-        if not f.name.startswith("period_rate")
+        if not f.name.startswith("period_")
     ]
     return amort.schedule.BatchTerms(
         **{name: np.concatenate([getattr(p, name) for p in parts]) for name in fields}
