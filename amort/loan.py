@@ -21,7 +21,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from amort import calendar, solve, variable
+from amort import calendar, graduated, solve, variable
 from amort.calendar import BusinessDay
 from amort.conventions import Frequency, Structure, Timing
 from amort.dated import DatedPlan, InterestDates, OddDays, plan
@@ -130,6 +130,9 @@ class Loan:
     interest_dates: InterestDates = InterestDates.UNADJUSTED
     structure: Structure = Structure.LEVEL
     interest_only_periods: int = 0
+    payment_growth: Decimal | None = None
+    payment_step: Decimal | None = None
+    growth_every: int | None = None
 
     def __post_init__(self) -> None:
         set_ = functools.partial(object.__setattr__, self)
@@ -171,6 +174,29 @@ class Loan:
                 f"'interest_only_periods' must be a whole number >= 0 (got {describe(only)})"
             )
         set_("interest_only_periods", int(only))
+        if self.payment_growth is not None:
+            set_("payment_growth", parse_rate(self.payment_growth, "payment_growth"))
+        if self.payment_step is not None:
+            set_("payment_step", parse_amount(self.payment_step, "payment_step"))
+        if self.payment_growth is not None and self.payment_step is not None:
+            raise InvalidTerms(
+                "give 'payment_growth' (geometric) or 'payment_step' (arithmetic), not both"
+            )
+        if self.growth_every is None:
+            set_("growth_every", self.frequency.per_year)
+        elif (
+            isinstance(self.growth_every, bool)
+            or not isinstance(self.growth_every, (int, np.integer))
+            or self.growth_every < 1
+        ):
+            raise InvalidTerms(
+                "'growth_every' must be a whole number of periods >= 1 "
+                f"(got {describe(self.growth_every)})"
+            )
+        if self.graduated and self.structure is not Structure.LEVEL:
+            raise InvalidTerms(
+                f"graduated payments apply to the 'level' structure (got {self.structure.value!r})"
+            )
         if not self.structured:
             return
         if self.periods is None or self.fixed_payment is not None:
@@ -197,9 +223,30 @@ class Loan:
             )
 
     @property
+    def graduated(self) -> bool:
+        """True when the payment grows (``payment_growth``) or steps (``payment_step``)."""
+        return self.payment_growth is not None or self.payment_step is not None
+
+    @property
     def structured(self) -> bool:
         """True when payments follow a rule other than one level payment throughout."""
-        return self.structure is not Structure.LEVEL or self.interest_only_periods > 0
+        return (
+            self.structure is not Structure.LEVEL
+            or self.interest_only_periods > 0
+            or self.graduated
+        )
+
+    def _payment_path(self, horizon: int) -> list[int]:
+        """Each period's scheduled payment (graduated loans), cents."""
+        return graduated.payment_path(
+            self._level_cents,
+            horizon,
+            interest_only=self.interest_only_periods,
+            every=int(self.growth_every or 1),
+            growth=None if self.payment_growth is None else Fraction(self.payment_growth),
+            step_cents=None if self.payment_step is None else to_cents(self.payment_step),
+            mode=self.rounding,
+        )
 
     def _normalise_dates(self, set_: Any) -> None:
         set_("day_count", DayCount.parse(self.day_count))
@@ -413,8 +460,15 @@ class Loan:
         open_term = self.periods is None
         if pay < interest or (open_term and pay <= interest):
             what = "the payment" if self.fixed_payment is not None else "the level payment"
+            if self.graduated:
+                what = "the first graduated payment"
             if self.fixed_payment is not None:
                 extra = "; the balance would never be repaid"
+            elif self.graduated:
+                extra = (
+                    "; the balance would grow at first (negative amortisation), which this "
+                    "version refuses: lower the growth or shorten the term"
+                )
             elif self.balloon > 0:
                 extra = "; the balloon is too large for the term (the balance would grow)"
             else:
@@ -439,6 +493,17 @@ class Loan:
         if self.structure is Structure.EQUAL_PRINCIPAL:
             return round_ratio(owed - to_cents(self.balloon), amortising, self.rounding)
         rates = self._rates_for(self.periods)
+        if self.graduated:
+            return graduated.first_payment_cents(
+                owed,
+                rates if rates is not None else [self.periodic_rate] * self.periods,
+                interest_only=self.interest_only_periods,
+                every=int(self.growth_every or 1),
+                growth=None if self.payment_growth is None else Fraction(self.payment_growth),
+                step_cents=None if self.payment_step is None else to_cents(self.payment_step),
+                balloon_cents=to_cents(self.balloon),
+                mode=self.rounding,
+            )
         if rates is not None:
             return level_payment_cents_variable(
                 owed,
@@ -564,7 +629,11 @@ class Loan:
         if self.structured:
             ks = np.arange(1, horizon + 1)
             only = ks <= self.interest_only_periods
-            if self.structure is Structure.LEVEL:
+            if self.graduated:
+                path = self._payment_path(horizon)
+                rule_payment = np.asarray(path, dtype=np.int64)[:, None]
+                rule_covers = only[:, None]
+            elif self.structure is Structure.LEVEL:
                 rule_payment = np.where(only, 0, self._level_cents)[:, None].astype(np.int64)
                 rule_covers = only[:, None]
             elif self.structure is Structure.EQUAL_PRINCIPAL:
@@ -684,6 +753,9 @@ class Loan:
             "compounding": None if self.compounding is None else self.compounding.name,
             "structure": self.structure.value,
             "interest_only_periods": self.interest_only_periods,
+            "payment_growth": self.payment_growth,
+            "payment_step": self.payment_step,
+            "growth_every": self.growth_every if self.graduated else None,
             "principal_part": (
                 from_cents(self._level_cents)
                 if self.structure is Structure.EQUAL_PRINCIPAL

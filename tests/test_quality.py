@@ -62,6 +62,7 @@ CORE = {
     "schedule_fast",
     "dated",
     "compounding",
+    "graduated",
 }
 FORBIDDEN_IN_CORE = {"pandas", "sympy", "openpyxl", "typer", "rich", "amort.cli", "amort.io"}
 
