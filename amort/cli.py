@@ -26,6 +26,8 @@ from amort.cli_options import (
     FirstPayment,
     Force,
     FrequencyOpt,
+    Growth,
+    GrowthEvery,
     Holidays,
     InterestDatesOpt,
     InterestOnly,
@@ -39,6 +41,7 @@ from amort.cli_options import (
     RoundingOpt,
     SemimonthlyDays,
     Start,
+    Step,
     StructureOpt,
     Years,
     build_loan,
@@ -106,6 +109,9 @@ def payment(
     semimonthly_days: SemimonthlyDays = "1,15",
     structure: StructureOpt = "level",
     interest_only: InterestOnly = 0,
+    growth: Growth = None,
+    step: Step = None,
+    growth_every: GrowthEvery = None,
     as_json: AsJson = False,
 ) -> None:
     """The level payment for a principal, rate and term."""
@@ -124,6 +130,9 @@ def payment(
             verb="payment",
             structure=structure,
             interest_only=interest_only,
+            growth=growth,
+            step=step,
+            growth_every=growth_every,
             dated=dated_terms(
                 start,
                 first_payment,
@@ -437,6 +446,9 @@ def schedule(
     semimonthly_days: SemimonthlyDays = "1,15",
     structure: StructureOpt = "level",
     interest_only: InterestOnly = 0,
+    growth: Growth = None,
+    step: Step = None,
+    growth_every: GrowthEvery = None,
     as_json: AsJson = False,
 ) -> None:
     """One loan's schedule to the cent, with its reconciliation against the closed form."""
@@ -460,6 +472,9 @@ def schedule(
             verb="schedule",
             structure=structure,
             interest_only=interest_only,
+            growth=growth,
+            step=step,
+            growth_every=growth_every,
             dated=dated_terms(
                 start,
                 first_payment,

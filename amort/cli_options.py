@@ -148,6 +148,18 @@ InterestOnly = Annotated[
     int,
     typer.Option("--interest-only", help="Interest-only payments before amortisation begins."),
 ]
+Growth = Annotated[
+    str | None,
+    typer.Option("--growth", help="Graduated payments: grow by this percent every --growth-every."),
+]
+Step = Annotated[
+    str | None,
+    typer.Option("--step", help="Graduated payments: add this amount every --growth-every."),
+]
+GrowthEvery = Annotated[
+    int | None,
+    typer.Option("--growth-every", help="Periods between payment increases (default: a year)."),
+]
 Force = Annotated[bool, typer.Option("--force", help="Replace an existing --out file.")]
 
 
@@ -221,8 +233,14 @@ def build_loan(
     dated: dict[str, Any] | None = None,
     structure: str = "level",
     interest_only: int = 0,
+    growth: str | None = None,
+    step: str | None = None,
+    growth_every: int | None = None,
 ) -> Loan:
     return Loan(
+        payment_growth=None if growth is None else parse_rate(growth, "growth", percent=True),
+        payment_step=None if step is None else parse_amount(step, "step"),
+        growth_every=growth_every,
         **(dated or {}),
         structure=Structure.parse(structure),
         interest_only_periods=interest_only,

@@ -300,3 +300,19 @@ def test_rate_and_principal_verbs_take_dates() -> None:
     )
     assert 11_999.9 < principal["principal"] < 12_000.1
     assert principal["payment"] <= 2055.32
+
+
+def test_graduated_and_structured_options() -> None:
+    data = as_json(
+        "schedule", "--principal", "60000", "--rate", "6", "--years", "5", "--growth", "4"
+    )
+    payments = [row["payment"] for row in data["schedule"]]
+    # +4 % a year: month 13 pays the first payment x 1.04, rounded half-up (hand-derived rule).
+    assert payments[12] == round(payments[0] * 1.04 + 1e-9, 2)
+    assert data["reconciliation"]["passed"] is True
+    bullet = as_json(
+        "schedule", "--principal", "50000", "--rate", "7.2", "--periods", "12", "--structure",
+        "bullet",
+    )  # fmt: skip
+    assert bullet["schedule"][0]["payment"] == 300.0
+    assert bullet["schedule"][-1]["payment"] == 50_300.0
