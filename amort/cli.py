@@ -13,6 +13,7 @@ import sys
 from typing import Annotated, Any
 
 import typer
+from rich.table import Table
 
 from amort import __version__, rates
 from amort.cli_options import (
@@ -67,8 +68,10 @@ from amort.conventions import Frequency, Timing
 from amort.errors import InvalidTerms
 from amort.io.csv import write_schedule_csv
 from amort.money import Rounding, parse_amount, parse_rate
+from amort.payoff import payoff_quote
 from amort.quote import quote_payment, quote_principal, quote_rate, quote_term
 from amort.rates import Compounding
+from amort.rebates import rebates_for
 
 app = typer.Typer(
     name="amort",
@@ -522,6 +525,131 @@ def schedule(
     out.print(checks_table(check))
     if written is not None:
         out.print(f"\nwrote {len(frame):,} rows to {written}")
+    caution()
+
+
+@app.command(
+    epilog=(
+        "Example: amort payoff --principal 10000 --rate 7.3 --periods 12 --start 2027-01-15 "
+        "--day-count actual/365 --on 2027-04-20 --days 5"
+    ),
+)
+def payoff(
+    principal: Principal = None,
+    rate: Rate = None,
+    periods: Periods = None,
+    years: Years = None,
+    frequency: FrequencyOpt = "monthly",
+    balloon: Balloon = "0",
+    advance: Advance = False,
+    rounding: RoundingOpt = "half-up",
+    interest_rounding: InterestRounding = "half-up",
+    start: Start = None,
+    first_payment: FirstPayment = None,
+    day_count: DayCountOpt = "equal",
+    compounding: CompoundingOpt = None,
+    business_days: BusinessDays = "none",
+    holidays: Holidays = None,
+    odd_days: OddDaysOpt = "accrue",
+    end_of_month: EndOfMonth = False,
+    interest_dates: InterestDatesOpt = "unadjusted",
+    semimonthly_days: SemimonthlyDays = "1,15",
+    on: Annotated[
+        str | None, typer.Option("--on", help="Payoff date, YYYY-MM-DD (required).")
+    ] = None,
+    days: Annotated[
+        int, typer.Option("--days", help="Also list the payoff for each of the next N days.")
+    ] = 0,
+    precomputed: Annotated[
+        bool,
+        typer.Option(
+            "--precomputed",
+            help="Precomputed-interest loan: show the rebate of unearned interest by the "
+            "actuarial method and by the Rule of 78s.",
+        ),
+    ] = False,
+    as_json: AsJson = False,
+) -> None:
+    """The amount that closes a dated loan on a date, with the per-diem and a day table."""
+    with errors():
+        freq = Frequency.parse(frequency)
+        loan = build_loan(
+            principal=principal,
+            rate=rate,
+            periods=periods_from(periods, years, freq, "payoff"),
+            frequency=freq,
+            payment=None,
+            balloon=balloon,
+            advance=advance,
+            rounding=rounding,
+            interest_rounding=interest_rounding,
+            verb="payoff",
+            dated=dated_terms(
+                start,
+                first_payment,
+                day_count,
+                compounding,
+                business_days,
+                holidays,
+                odd_days,
+                end_of_month,
+                interest_dates,
+                semimonthly_days,
+            ),
+        )
+        quote = payoff_quote(loan, require(on, "--on", "payoff"), days=days)
+        rebate_figures = rebates_for(loan, quote.on) if precomputed else None
+    if as_json:
+        payload = quote.as_dict()
+        if rebate_figures is not None:
+            payload["rebates"] = rebate_figures.as_dict()
+        emit_json(payload)
+        return
+    rows = [
+        ("payoff date", f"{quote.on}"),
+        ("last due date", f"{quote.last_due_date or '-'} ({quote.payments_made} payments made)"),
+        ("balance", money(quote.balance)),
+        (f"interest since {quote.interest_from}", money(quote.accrued_interest)),
+    ]
+    if quote.scheduled_unpaid:
+        rows.append(("scheduled amounts not yet paid", money(quote.scheduled_unpaid)))
+    rows += [
+        ("payoff amount", money(quote.payoff)),
+        ("per diem", money(quote.per_diem)),
+        ("day count", quote.day_count),
+        ("maturity", f"{quote.maturity_date}"),
+    ]
+    out.print(figures_table("Payoff", rows))
+    if days:
+        table = Table(title="Payoff by day", title_justify="left", header_style="bold cyan")
+        for name in ("date", "balance", "interest", "payoff"):
+            table.add_column(name, justify="right")
+        for day in quote.table:
+            table.add_row(
+                f"{day.on}", money(day.balance), money(day.accrued_interest), money(day.payoff)
+            )
+        out.print()
+        out.print(table)
+    if rebate_figures is not None:
+        out.print()
+        out.print(
+            figures_table(
+                "Rebate of unearned interest",
+                [
+                    ("finance charge", money(rebate_figures.finance_charge)),
+                    (
+                        "instalments unmatured",
+                        f"{rebate_figures.unmatured} of {rebate_figures.instalments}",
+                    ),
+                    ("actuarial method", money(rebate_figures.actuarial)),
+                    ("Rule of 78s (sum of the digits)", money(rebate_figures.rule_of_78s)),
+                    ("difference", money(rebate_figures.difference)),
+                ],
+            )
+        )
+        out.print(f"\n[dim]{rebate_figures.caution}[/dim]")
+        return
+    out.print(f"\n[dim]{quote.note}[/dim]")
     caution()
 
 

@@ -356,6 +356,15 @@ class Loan:
         plan_: DatedPlan = cache[periods]
         return plan_
 
+    def dated_plan(self) -> DatedPlan:
+        """Return the dated plan of the schedule: due dates, interest dates, days and rates.
+
+        Raises :class:`~amort.errors.InvalidTerms` for an undated loan.
+        """
+        if not self.dated:
+            raise InvalidTerms("the loan has no dates: give 'start' or 'first_payment'")
+        return self._plan_for(self._engine_horizon)
+
     @property
     def _odd_cents(self) -> int:
         """Odd-days interest of a long first period that is capitalised or paid separately."""
@@ -728,9 +737,12 @@ class Loan:
         maturity = None
         first_due = None
         if self.dated:
-            due = self._plan_for(self._engine_horizon).due
-            maturity = due[self.number_of_payments - 1]
-            first_due = due[0]
+            plan_ = self._plan_for(self._engine_horizon)
+            maturity = plan_.due[self.number_of_payments - 1]
+            if self.advance and int(table.balloon_paid[0]) > 0:
+                # In advance the balloon falls due at the end of the last period.
+                maturity = plan_.bounds[self.number_of_payments]
+            first_due = plan_.due[0]
         return {
             "principal": self.principal,
             "annual_rate": self.annual_rate,

@@ -58,6 +58,12 @@ def run(terms: BatchTerms, interest_rounding: Rounding = Rounding.HALF_UP) -> Ce
     (12, 86070, 0)
     """
     table = None if terms.varies else run_fast(terms, interest_rounding)
+    if table is not None:
+        # The fast path closes a loan when its balance reaches the balloon; a loan
+        # that only reached it (and should run on to maturity) is redone exactly.
+        early = (table.rows < terms.periods) & (terms.balloon > 0)
+        if early.any():
+            table = None
     if table is None:
         table = _run_general(terms, interest_rounding)
     return table
@@ -107,13 +113,16 @@ def _run_general(terms: BatchTerms, interest_rounding: Rounding) -> CentsTable:
             # A structured period pays its own amount, plus its interest where it covers it.
             p = rule_payment[k - 1, at] + np.where(rule_covers[k - 1, at], intr, 0)
         due = balance + intr - f
-        closes = final | (due <= p)
+        # It closes early when the payment would take the balance to 0, or below
+        # the balloon; a balance that merely stays at the balloon runs to maturity.
+        closes = final | (due < p) | ((due == p) & (f == 0))
         pay = np.where(closes, due, p)
         adv = advance[at]
         if adv.any():
             # In advance the payment comes first and what stays earns the interest.
             y = remainder[at]
-            closes_adv = final | (balance - y <= p)
+            left = balance - y
+            closes_adv = final | (left < p) | ((left == p) & (y == 0))
             pay_adv = np.where(closes_adv, balance - y, p)
             intr_adv = interest_cents(np.maximum(balance - pay_adv, 0), n_, d_, interest_rounding)
             pay = np.where(adv, pay_adv, pay)

@@ -316,3 +316,40 @@ def test_graduated_and_structured_options() -> None:
     )  # fmt: skip
     assert bullet["schedule"][0]["payment"] == 300.0
     assert bullet["schedule"][-1]["payment"] == 50_300.0
+
+
+PAYOFF_LOAN = [
+    "payoff", "--principal", "10000", "--rate", "7.3", "--periods", "12",
+    "--start", "2027-01-15", "--day-count", "actual/365",
+]  # fmt: skip
+
+
+def test_payoff_quote_with_per_diem_and_day_table() -> None:
+    data = as_json(*PAYOFF_LOAN, "--on", "2027-04-20", "--days", "3")
+    # Hand-derived: 7,565.92 owed after the 15 April payment; 5 days at 7.3 % / 365
+    # = 7,565.92 x 0.073 x 5 / 365 = 7.57; one day = 1.51.
+    assert data["balance"] == 7565.92
+    assert data["accrued_interest"] == 7.57
+    assert data["payoff"] == 7573.49
+    assert data["per_diem"] == 1.51
+    assert len(data["table"]) == 4
+    assert data["caution"] == CAUTION
+
+
+def test_payoff_rebates_side_by_side() -> None:
+    data = as_json(*PAYOFF_LOAN, "--on", "2027-04-20", "--precomputed")
+    rebates = data["rebates"]
+    # Rule of 78s [common practice formula]: F k (k+1) / (n (n+1)) = 398.16 x 90 / 156.
+    assert rebates["rule_of_78s"] == round(398.16 * 90 / 156, 2)
+    assert rebates["actuarial"] >= rebates["rule_of_78s"]
+    assert "15 U.S.C. 1615" in rebates["caution"]
+
+
+@pytest.mark.parametrize(
+    ("extra", "needle"),
+    [([], "--on"), (["--on", "2026-12-01"], "before"), (["--on", "2029-01-01"], "paid off")],
+)
+def test_payoff_bad_input(extra: list[str], needle: str) -> None:
+    code, _, stderr = invoke(*PAYOFF_LOAN, *extra)
+    assert code == 2
+    assert needle in stderr

@@ -354,3 +354,14 @@ def test_a_level_payment_that_rounds_to_zero_is_refused() -> None:
     assert Loan(principal="0.01", annual_rate=0, periods=100_000, rounding="up").payment == Decimal(
         "0.01"
     )
+
+
+def test_a_payment_of_just_the_interest_with_a_balloon_runs_to_maturity() -> None:
+    # 1,000 at 1 % a month paying 10.00 (the interest) with a 1,000 balloon: the balance
+    # stays at the balloon and the loan runs its 3 periods (hand-derived).
+    loan = Loan(principal=1000, annual_rate="12%", periods=3, fixed_payment="10", balloon=1000)
+    frame = loan.schedule()
+    assert len(frame) == 3
+    assert frame["payment"].tolist() == [10.0, 10.0, 10.0]
+    assert frame["balloon"].tolist() == [0.0, 0.0, 1000.0]
+    assert loan.reconciliation().passed

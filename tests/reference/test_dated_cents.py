@@ -450,7 +450,7 @@ def reference_over(
         rate = dated.rates[k - 1]
         final = k == terms.periods
         if terms.advance:
-            if final or balance - left <= payment:
+            if final or balance - left < payment or (balance - left == payment and left == 0):
                 intr = interest(left, rate)
                 rows.append((balance, balance - left, intr, left + intr))
                 break
@@ -459,7 +459,7 @@ def reference_over(
         else:
             intr = interest(balance, rate)
             due = balance + intr - balloon
-            if final or due <= payment:
+            if final or due < payment or (due == payment and balloon == 0):
                 rows.append((balance, due, intr, balloon))
                 break
             pay = payment
@@ -561,7 +561,11 @@ def first_difference(loan: Loan, want: Expected) -> str | None:
         "balloon": want.balloon[-1],
         "odd_days_interest": want.odd_interest,
         "total_paid": sum(want.pay) + want.balloon[-1] + want.separate,
-        "maturity_date": want.plan.due[n - 1],
+        # In advance a balloon falls due at the end of the last period, a step after
+        # the last instalment; otherwise the loan matures on its last due date.
+        "maturity_date": (
+            want.plan.bounds[n] if loan.advance and want.balloon[-1] > 0 else want.plan.due[n - 1]
+        ),
         "first_payment_date": want.plan.due[0],
     }
     for name, value in figures.items():

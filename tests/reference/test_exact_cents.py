@@ -213,7 +213,7 @@ def reference_schedule(terms: Terms, tally: Tally | None = None) -> tuple[Decima
         assert k <= 100_002, "the reference schedule does not close"
         final = k == last
         if advance:
-            if final or balance - left <= payment:
+            if final or balance - left < payment or (balance - left == payment and left == 0):
                 pay = balance - left
                 intr = interest(left)
                 paid_balloon = left + intr
@@ -225,7 +225,7 @@ def reference_schedule(terms: Terms, tally: Tally | None = None) -> tuple[Decima
         else:
             intr = interest(balance)
             due = balance + intr - balloon
-            if final or due <= payment:
+            if final or due < payment or (due == payment and balloon == 0):
                 closing = balance - (due - intr) - balloon
                 rows.append(Row(k, balance, due, intr, due - intr, closing, balloon))
                 break

@@ -71,7 +71,7 @@ def reference(
         else:
             pay = level
         due = balance + interest - balloon
-        if k == periods or due <= pay:
+        if k == periods or due < pay or (due == pay and balloon == 0):
             pay = due
             rows.append((balance, pay, interest, pay - interest, Decimal(0)))
             return rows
