@@ -66,6 +66,7 @@ from amort.cli_output import (
 )
 from amort.conventions import Frequency, Timing
 from amort.errors import InvalidTerms
+from amort.formula import check_against_schedule, formula_for
 from amort.io.csv import write_schedule_csv
 from amort.money import Rounding, parse_amount, parse_rate
 from amort.payoff import payoff_quote
@@ -650,6 +651,83 @@ def payoff(
         out.print(f"\n[dim]{rebate_figures.caution}[/dim]")
         return
     out.print(f"\n[dim]{quote.note}[/dim]")
+    caution()
+
+
+@app.command(
+    name="formula",
+    epilog="Example: amort formula --principal 250000 --rate 6.5 --periods 360 --latex",
+)
+def formula_(
+    principal: Principal = None,
+    rate: Rate = None,
+    periods: Periods = None,
+    years: Years = None,
+    frequency: FrequencyOpt = "monthly",
+    balloon: Balloon = "0",
+    advance: Advance = False,
+    rounding: RoundingOpt = "half-up",
+    interest_rounding: InterestRounding = "half-up",
+    start: Start = None,
+    first_payment: FirstPayment = None,
+    day_count: DayCountOpt = "equal",
+    compounding: CompoundingOpt = None,
+    odd_days: OddDaysOpt = "accrue",
+    latex: Annotated[bool, typer.Option("--latex", help="Also print the LaTeX form.")] = False,
+    as_json: AsJson = False,
+) -> None:
+    """The closed form of a loan's balance, derived with sympy from its recurrence."""
+    with errors():
+        freq = Frequency.parse(frequency)
+        loan = build_loan(
+            principal=principal,
+            rate=rate,
+            periods=periods_from(periods, years, freq, "formula"),
+            frequency=freq,
+            payment=None,
+            balloon=balloon,
+            advance=advance,
+            rounding=rounding,
+            interest_rounding=interest_rounding,
+            verb="formula",
+            dated=dated_terms(
+                start,
+                first_payment,
+                day_count,
+                compounding,
+                "none",
+                None,
+                odd_days,
+                False,
+                "unadjusted",
+                "1,15",
+            ),
+        )
+        found = formula_for(loan)
+        gap = check_against_schedule(loan, formula=found)
+        bound = loan.reconciliation().gap_bound
+    if as_json:
+        emit_json(
+            {
+                "text": found.text,
+                "latex": found.latex,
+                "characteristic_root": str(found.characteristic_root),
+                "fixed_point": None if found.fixed_point is None else str(found.fixed_point),
+                "outcome": found.outcome,
+                "largest_gap_to_schedule": gap,
+                "gap_bound": bound,
+            }
+        )
+        return
+    out.print(found.text, markup=False, highlight=False, soft_wrap=True)
+    if latex:
+        out.print()
+        out.print(found.latex, markup=False, highlight=False)
+    out.print(
+        f"\nchecked against the cent schedule: largest gap {gap:.4f} <= bound {bound:.4f}"
+        + ("" if gap <= bound else "  FAIL"),
+        markup=False,
+    )
     caution()
 
 

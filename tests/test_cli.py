@@ -353,3 +353,17 @@ def test_payoff_bad_input(extra: list[str], needle: str) -> None:
     code, _, stderr = invoke(*PAYOFF_LOAN, *extra)
     assert code == 2
     assert needle in stderr
+
+
+def test_formula_verb_states_root_fixed_point_and_check() -> None:
+    code, stdout, _ = invoke(
+        "formula", "--principal", "250000", "--rate", "6.5", "--periods", "360", "--latex"
+    )
+    assert code == 0
+    assert "2413/2400" in stdout  # a = 1 + i with i = 6.5 % / 12 = 13/2400 exactly
+    assert "B* = P/i" in stdout and "pays off" in stdout
+    assert "\\begin{aligned}" in stdout
+    assert "checked against the cent schedule" in stdout and "FAIL" not in stdout
+    data = as_json("formula", "--principal", "250000", "--rate", "6.5", "--periods", "360")
+    assert data["largest_gap_to_schedule"] <= data["gap_bound"]
+    assert data["outcome"] == "pays off"

@@ -8,7 +8,7 @@ from fractions import Fraction
 
 import pytest
 
-from amort import InvalidTerms, Loan, symbolic
+from amort import InvalidTerms, Loan, formula, symbolic
 
 MORTGAGE = {"principal": 250_000, "annual_rate": "6.5%", "periods": 360}
 
@@ -64,8 +64,8 @@ LOANS = {
 
 
 @pytest.fixture(scope="module")
-def mortgage() -> symbolic.LoanFormula:
-    return symbolic.formula_for(Loan(**MORTGAGE))
+def mortgage() -> formula.LoanFormula:
+    return formula.formula_for(Loan(**MORTGAGE))
 
 
 def test_mortgage_numbers(mortgage):
@@ -111,7 +111,7 @@ def test_closed_form_against_schedule_within_reconciliation_bound(name):
     """The exact closed form vs the cent schedule: within the bound amort.reconcile documents,
     and the same gap the float reconciliation measures (to 1e-6 currency units)."""
     loan = Loan(**LOANS[name])
-    gap = symbolic.check_against_schedule(loan)
+    gap = formula.check_against_schedule(loan)
     rec = loan.reconciliation()
     assert gap <= rec.gap_bound
     assert abs(gap - rec.largest_gap) <= 1e-6
@@ -120,7 +120,7 @@ def test_closed_form_against_schedule_within_reconciliation_bound(name):
 @pytest.mark.parametrize("name", sorted(LOANS))
 def test_formula_fields_hold_together(name):
     loan = Loan(**LOANS[name])
-    f = symbolic.formula_for(loan)
+    f = formula.formula_for(loan)
     assert f.text and f.latex.endswith("\\end{aligned}")
     assert f.outcome == symbolic.PAYS_OFF
     assert f.periods == loan.number_of_payments
@@ -140,7 +140,7 @@ def test_formula_fields_hold_together(name):
 
 
 def test_zero_rate_uses_the_limit():
-    f = symbolic.formula_for(Loan(**LOANS["zero-rate"]))
+    f = formula.formula_for(Loan(**LOANS["zero-rate"]))
     assert f.fixed_point is None
     assert f.characteristic_root == 1
     assert f.balance_at(3) == 12_000 - 3 * 1_000
@@ -150,7 +150,7 @@ def test_zero_rate_uses_the_limit():
 
 
 def test_advance_fixed_point_is_a_p_over_i():
-    f = symbolic.formula_for(Loan(**LOANS["advance-balloon"]))
+    f = formula.formula_for(Loan(**LOANS["advance-balloon"]))
     assert f.fixed_point == (1 + f.rate) * f.payment / f.rate
     assert "B* = P*a/i" in f.text
     assert "balloon F at N" in f.text
@@ -159,7 +159,7 @@ def test_advance_fixed_point_is_a_p_over_i():
 def test_interest_only_forever():
     """P = i B_0 exactly: B_0 is the fixed point."""
     loan = Loan(principal=1_000, annual_rate="12%", periods=3, fixed_payment="10", balloon=1_000)
-    f = symbolic.formula_for(loan)
+    f = formula.formula_for(loan)
     assert f.fixed_point == 1_000
     assert f.outcome == symbolic.INTEREST_ONLY
     assert "interest-only forever" in f.text
@@ -170,7 +170,7 @@ def test_negative_amortisation():
     loan = Loan(
         principal="1000.10", annual_rate="12%", periods=3, fixed_payment="10", balloon="1000.10"
     )
-    f = symbolic.formula_for(loan)
+    f = formula.formula_for(loan)
     assert f.fixed_point == 1_000
     assert f.outcome == symbolic.NEGATIVE_AMORTISATION
     assert "negative amortisation" in f.text
@@ -178,8 +178,8 @@ def test_negative_amortisation():
 
 def test_check_takes_a_formula_already_derived(mortgage):
     loan = Loan(**MORTGAGE)
-    gap = symbolic.check_against_schedule(loan, formula=mortgage)
-    assert gap == symbolic.check_against_schedule(loan)
+    gap = formula.check_against_schedule(loan, formula=mortgage)
+    assert gap == formula.check_against_schedule(loan)
     assert 0 < gap <= loan.reconciliation().gap_bound
 
 
@@ -193,12 +193,12 @@ def test_long_first_period_that_outgrows_the_payment():
         first_payment="2027-03-15",
         day_count="actual/365",
     )
-    f = symbolic.formula_for(loan)
+    f = formula.formula_for(loan)
     assert f.rates is not None and f.rates[0] == Fraction(18, 100) * Fraction(73, 365)
     assert f.outcome == symbolic.RISES
     assert f.balance_at(1) > f.principal > f.balance_at(2)
     assert "rises in period 1 (1 period(s) in all)" in f.text
-    assert symbolic.check_against_schedule(loan, formula=f) <= loan.reconciliation().gap_bound
+    assert formula.check_against_schedule(loan, formula=f) <= loan.reconciliation().gap_bound
 
 
 def test_balance_at_refuses_periods_outside_the_term(mortgage):
@@ -209,10 +209,10 @@ def test_balance_at_refuses_periods_outside_the_term(mortgage):
 def test_structured_loans_are_refused_in_one_sentence():
     loan = Loan(**MORTGAGE, structure="equal-principal")
     with pytest.raises(InvalidTerms, match=r"one level payment throughout.*'equal-principal'"):
-        symbolic.formula_for(loan)
+        formula.formula_for(loan)
     loan = Loan(**MORTGAGE, interest_only_periods=12)
     with pytest.raises(InvalidTerms, match=r"\(got 12 interest-only periods\)"):
-        symbolic.formula_for(loan)
+        formula.formula_for(loan)
 
 
 def test_unknown_rule_is_refused():
