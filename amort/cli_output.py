@@ -69,6 +69,17 @@ def terms_rows(loan: Loan) -> list[tuple[str, str]]:
     ]
     if loan.compounding is not None:
         rows.append(("compounding", str(loan.compounding)))
+    if loan.structure.value != "level":
+        rows.append(("structure", loan.structure.value))
+    if loan.interest_only_periods:
+        rows.append(("interest-only payments", f"{loan.interest_only_periods:,}"))
+    if loan.payment_growth is not None:
+        growth = (loan.payment_growth * 100).normalize()
+        rows.append(("payment growth", f"{growth:f} % every {loan.growth_every} periods"))
+    if loan.payment_step is not None:
+        rows.append(
+            ("payment step", f"{money(loan.payment_step)} every {loan.growth_every} periods")
+        )
     if loan.dated:
         summary = loan.summary()
         rows += [
