@@ -22,6 +22,7 @@ from amort.cli_options import (
     Balloon,
     BusinessDays,
     CompoundingOpt,
+    CustomPayments,
     DayCountOpt,
     EndOfMonth,
     FirstPayment,
@@ -35,6 +36,7 @@ from amort.cli_options import (
     InterestRounding,
     OddDaysOpt,
     OutFile,
+    PaymentMonths,
     PaymentOpt,
     Periods,
     Principal,
@@ -453,6 +455,8 @@ def schedule(
     growth: Growth = None,
     step: Step = None,
     growth_every: GrowthEvery = None,
+    custom_payments: CustomPayments = None,
+    payment_months: PaymentMonths = None,
     as_json: AsJson = False,
 ) -> None:
     """One loan's schedule to the cent, with its reconciliation against the closed form."""
@@ -460,7 +464,9 @@ def schedule(
         freq = Frequency.parse(frequency)
         count = (
             None
-            if payment is not None and periods is None and years is None
+            if (payment is not None or custom_payments is not None)
+            and periods is None
+            and years is None
             else (periods_from(periods, years, freq, "schedule"))
         )
         loan = build_loan(
@@ -479,6 +485,8 @@ def schedule(
             growth=growth,
             step=step,
             growth_every=growth_every,
+            custom_payments=custom_payments,
+            payment_months=payment_months,
             dated=dated_terms(
                 start,
                 first_payment,

@@ -160,6 +160,20 @@ GrowthEvery = Annotated[
     int | None,
     typer.Option("--growth-every", help="Periods between payment increases (default: a year)."),
 ]
+CustomPayments = Annotated[
+    str | None,
+    typer.Option(
+        "--payments",
+        help="Every payment, comma-separated (the last pays what is left), e.g. 100,100,900.",
+    ),
+]
+PaymentMonths = Annotated[
+    str | None,
+    typer.Option(
+        "--payment-months",
+        help="Seasonal loan: the months (1-12) payments fall in, e.g. 8,9,10,11; needs dates.",
+    ),
+]
 Force = Annotated[bool, typer.Option("--force", help="Replace an existing --out file.")]
 
 
@@ -218,6 +232,13 @@ def dated_or_none(
     return None if plain else terms
 
 
+def _month(text: str, field: str) -> int:
+    try:
+        return int(text.strip())
+    except ValueError:
+        raise InvalidTerms(f"{field!r} must list months 1 to 12 (got {text.strip()!r})") from None
+
+
 def build_loan(
     *,
     principal: str | None,
@@ -236,8 +257,18 @@ def build_loan(
     growth: str | None = None,
     step: str | None = None,
     growth_every: int | None = None,
+    custom_payments: str | None = None,
+    payment_months: str | None = None,
 ) -> Loan:
     return Loan(
+        custom_payments=None
+        if custom_payments is None
+        else tuple(
+            parse_amount(part, "payments", allow_zero=True) for part in custom_payments.split(",")
+        ),
+        payment_months=None
+        if payment_months is None
+        else tuple(_month(part, "payment-months") for part in payment_months.split(",")),
         payment_growth=None if growth is None else parse_rate(growth, "growth", percent=True),
         payment_step=None if step is None else parse_amount(step, "step"),
         growth_every=growth_every,

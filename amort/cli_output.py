@@ -76,6 +76,10 @@ def terms_rows(loan: Loan) -> list[tuple[str, str]]:
     if loan.payment_growth is not None:
         growth = (loan.payment_growth * 100).normalize()
         rows.append(("payment growth", f"{growth:f} % every {loan.growth_every} periods"))
+    if loan.payment_months is not None:
+        rows.append(("payment months", ", ".join(str(m) for m in loan.payment_months)))
+    if loan.custom_payments is not None:
+        rows.append(("payments", "as listed"))
     if loan.payment_step is not None:
         rows.append(
             ("payment step", f"{money(loan.payment_step)} every {loan.growth_every} periods")

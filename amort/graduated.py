@@ -164,3 +164,25 @@ def payment_path(
         else:
             out.append(first_cents + s * (step_cents or 0))
     return out
+
+
+def weighted_payment_fraction(
+    owed_cents: int,
+    rates: list[Fraction],
+    multipliers: list[int],
+    balloon_cents: int = 0,
+) -> Fraction:
+    """Return the exact level payment, in cents, of a loan that pays only in some periods.
+
+    Period k pays ``m_k P`` (``m_k`` 1 in a paying period, 0 in a skipped one,
+    whose interest then adds to the balance): ``P = (B_0 T_0 - F) / sum m_k T_k``.
+
+    >>> weighted_payment_fraction(100_000, [Fraction(0)] * 4, [1, 0, 1, 1])
+    Fraction(100000, 3)
+    """
+    tails = [Fraction(1)]
+    for rate in reversed(rates):
+        tails.append(tails[-1] * (1 + rate))
+    tails.reverse()
+    weights = sum((m * tails[k] for k, m in enumerate(multipliers, start=1)), Fraction(0))
+    return (owed_cents * tails[0] - balloon_cents) / weights

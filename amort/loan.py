@@ -35,6 +35,7 @@ from amort.money import (
     parse_amount,
     parse_number,
     parse_rate,
+    round_fraction,
     round_ratio,
     to_cents,
 )
@@ -133,6 +134,8 @@ class Loan:
     payment_growth: Decimal | None = None
     payment_step: Decimal | None = None
     growth_every: int | None = None
+    custom_payments: tuple[Decimal, ...] | None = None
+    payment_months: tuple[int, ...] | None = None
 
     def __post_init__(self) -> None:
         set_ = functools.partial(object.__setattr__, self)
@@ -150,7 +153,7 @@ class Loan:
             set_("fixed_payment", parse_amount(self.fixed_payment, "fixed_payment"))
         if self.periods is not None:
             set_("periods", parse_periods(self.periods))
-        elif self.fixed_payment is None:
+        elif self.fixed_payment is None and self.custom_payments is None:
             raise InvalidTerms("give 'periods' (the number of payments) or 'fixed_payment'")
         self._normalise_dates(set_)
         self._normalise_structure(set_)
@@ -193,6 +196,7 @@ class Loan:
                 "'growth_every' must be a whole number of periods >= 1 "
                 f"(got {describe(self.growth_every)})"
             )
+        self._normalise_custom(set_)
         if self.graduated and self.structure is not Structure.LEVEL:
             raise InvalidTerms(
                 f"graduated payments apply to the 'level' structure (got {self.structure.value!r})"
@@ -222,6 +226,63 @@ class Loan:
                 "structure 'bullet'"
             )
 
+    def _normalise_custom(self, set_: Any) -> None:
+        others = (
+            self.structure is not Structure.LEVEL
+            or self.interest_only_periods > 0
+            or self.payment_growth is not None
+            or self.payment_step is not None
+            or self.fixed_payment is not None
+        )
+        if self.custom_payments is not None:
+            amounts = tuple(
+                parse_amount(v, f"custom_payments[{k}]", allow_zero=True)
+                for k, v in enumerate(self.custom_payments)
+            )
+            if not amounts:
+                raise InvalidTerms("'custom_payments' must list at least one payment")
+            if self.periods is None:
+                set_("periods", parse_periods(len(amounts)))
+            if len(amounts) != self.periods:
+                raise InvalidTerms(
+                    f"'custom_payments' lists {len(amounts):,} payments for {self.periods:,} "
+                    "periods; give one a period (the last one pays what is left)"
+                )
+            if others or self.payment_months is not None:
+                raise InvalidTerms(
+                    "'custom_payments' set every payment; give no other payment rule with them"
+                )
+            set_("custom_payments", amounts)
+        if self.payment_months is not None:
+            months = tuple(sorted(set(int(m) for m in self.payment_months)))
+            if not months or any(m < 1 or m > 12 for m in months):
+                raise InvalidTerms(
+                    f"'payment_months' must be months 1 to 12 (got {describe(self.payment_months)})"
+                )
+            if self.frequency is not Frequency.MONTHLY or (
+                self.start is None and (self.first_payment is None)
+            ):
+                raise InvalidTerms(
+                    "'payment_months' (a seasonal loan) needs monthly payments and dates: "
+                    "give 'start' or 'first_payment'"
+                )
+            if others:
+                raise InvalidTerms(
+                    "'payment_months' combines with the level structure only, in this version"
+                )
+            set_("payment_months", months)
+
+    @property
+    def seasonal(self) -> bool:
+        """True when payments fall only in the months of ``payment_months``."""
+        return self.payment_months is not None
+
+    def _paying(self, horizon: int) -> list[int]:
+        """1 for each period whose due date falls in a paying month, else 0."""
+        assert self.payment_months is not None
+        due = self._plan_for(horizon).due
+        return [1 if d.month in self.payment_months else 0 for d in due[:horizon]]
+
     @property
     def graduated(self) -> bool:
         """True when the payment grows (``payment_growth``) or steps (``payment_step``)."""
@@ -234,6 +295,8 @@ class Loan:
             self.structure is not Structure.LEVEL
             or self.interest_only_periods > 0
             or self.graduated
+            or self.custom_payments is not None
+            or self.seasonal
         )
 
     def _payment_path(self, horizon: int) -> list[int]:
@@ -450,8 +513,10 @@ class Loan:
 
     def _check_payment_covers_interest(self) -> None:
         pay = self._level_cents
-        if self.structure is Structure.BULLET:
-            return
+        if self.structure is Structure.BULLET or self.custom_payments is not None:
+            return  # interest only, or every payment set by the user
+        if self.seasonal:
+            return  # skipped months add interest; the closed form repays by maturity
         if self.structure is Structure.EQUAL_PRINCIPAL:
             if pay <= 0:
                 raise InvalidTerms(
@@ -501,7 +566,22 @@ class Loan:
             return 0
         if self.structure is Structure.EQUAL_PRINCIPAL:
             return round_ratio(owed - to_cents(self.balloon), amortising, self.rounding)
+        if self.custom_payments is not None:
+            return to_cents(self.custom_payments[0])
         rates = self._rates_for(self.periods)
+        if self.seasonal:
+            paying = self._paying(self.periods)
+            if not any(paying[:-1]) and self.periods > 1:
+                raise InvalidTerms(
+                    f"no due date before maturity falls in 'payment_months' {self.payment_months}"
+                )
+            exact = graduated.weighted_payment_fraction(
+                owed,
+                rates if rates is not None else [self.periodic_rate] * self.periods,
+                paying,
+                to_cents(self.balloon),
+            )
+            return round_fraction(exact, self.rounding)
         if self.graduated:
             return graduated.first_payment_cents(
                 owed,
@@ -638,7 +718,15 @@ class Loan:
         if self.structured:
             ks = np.arange(1, horizon + 1)
             only = ks <= self.interest_only_periods
-            if self.graduated:
+            if self.custom_payments is not None:
+                path = [to_cents(v) for v in self.custom_payments]
+                rule_payment = np.asarray(path, dtype=np.int64)[:, None]
+                rule_covers = np.zeros((horizon, 1), dtype=bool)
+            elif self.seasonal:
+                paying = np.asarray(self._paying(horizon), dtype=np.int64)
+                rule_payment = (paying * self._level_cents)[:, None]
+                rule_covers = np.zeros((horizon, 1), dtype=bool)
+            elif self.graduated:
                 path = self._payment_path(horizon)
                 rule_payment = np.asarray(path, dtype=np.int64)[:, None]
                 rule_covers = only[:, None]
@@ -765,6 +853,9 @@ class Loan:
             "compounding": None if self.compounding is None else self.compounding.name,
             "structure": self.structure.value,
             "interest_only_periods": self.interest_only_periods,
+            "custom_payments": self.custom_payments is not None,
+            "payment_months": self.payment_months,
+            "negative_amortisation": bool((table.principal < 0).any()),
             "payment_growth": self.payment_growth,
             "payment_step": self.payment_step,
             "growth_every": self.growth_every if self.graduated else None,

@@ -367,3 +367,22 @@ def test_formula_verb_states_root_fixed_point_and_check() -> None:
     data = as_json("formula", "--principal", "250000", "--rate", "6.5", "--periods", "360")
     assert data["largest_gap_to_schedule"] <= data["gap_bound"]
     assert data["outcome"] == "pays off"
+
+
+def test_custom_payments_and_seasonal_months() -> None:
+    listed = ",".join(["100"] * 6 + ["900"] * 6)
+    data = as_json("schedule", "--principal", "5000", "--rate", "9", "--payments", listed)
+    assert data["number_of_payments"] == 12
+    assert [row["payment"] for row in data["schedule"][:6]] == [100.0] * 6
+    seasonal = as_json(
+        "schedule", "--principal", "20000", "--rate", "8", "--periods", "24",
+        "--start", "2027-01-10", "--payment-months", "8,9,10,11", "--day-count", "30/360",
+    )  # fmt: skip
+    months = {row["due_date"][5:7] for row in seasonal["schedule"] if row["payment"] > 0}
+    assert months == {"08", "09", "10", "11"}
+    assert seasonal["reconciliation"]["passed"] is True
+    code, _, stderr = invoke(
+        "schedule", "--principal", "1000", "--rate", "5", "--periods", "12",
+        "--payment-months", "6",
+    )  # fmt: skip
+    assert code == 2 and "needs monthly payments and dates" in stderr

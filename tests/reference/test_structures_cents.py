@@ -189,3 +189,71 @@ def test_interest_only_then_level_equals_a_level_loan_over_the_rest() -> None:
 def test_bad_structures_are_refused_in_one_sentence(terms: dict, needle: str) -> None:
     with pytest.raises(InvalidTerms, match=needle):
         Loan(principal=10_000, annual_rate="6%", periods=12, **terms)
+
+
+def cent_loop(
+    principal: Decimal, i: Fraction, payments: list[Decimal], balloon: Decimal = Decimal(0)
+) -> list[tuple[Decimal, Decimal, Decimal]]:
+    """Exact reference (decimal): (payment, interest, closing) a period, half-up interest."""
+    rows = []
+    balance = principal
+    for k, pay in enumerate(payments, start=1):
+        interest = to_cent(Fraction(balance) * i, "half-up")
+        due = balance + interest - balloon
+        if k == len(payments) or due < pay or (due == pay and balloon == 0):
+            rows.append((due, interest, Decimal(0)))
+            return rows
+        balance = balance + interest - pay
+        rows.append((pay, interest, balance))
+    return rows
+
+
+def test_custom_payments_equal_the_decimal_reference() -> None:
+    # Source: Python's decimal and fractions; each listed payment is paid, the last
+    # period pays what is left.
+    listed = [Decimal(100)] * 6 + [Decimal(900)] * 6
+    loan = Loan(principal=5000, annual_rate="9%", periods=12, custom_payments=listed)
+    want = cent_loop(Decimal(5000), Fraction(9, 1200), listed)
+    frame = loan.schedule()
+    got = [
+        (Decimal(repr(p)).quantize(CENT), Decimal(repr(r)).quantize(CENT), Decimal(repr(c)))
+        for p, r, c in frame[["payment", "interest", "closing_balance"]].itertuples(index=False)
+    ]
+    assert got == [(p.quantize(CENT), r.quantize(CENT), c) for p, r, c in want]
+    assert loan.reconciliation().passed
+
+
+def test_seasonal_loan_pays_only_in_its_months_and_closes_by_the_closed_form() -> None:
+    # 30/360 with due dates on the 10th: every month earns exactly 8 % / 12 = 1/150.
+    # The level payment on paying months solves B_N = 0 with zero weight on the others
+    # (exact iteration in fractions, below).
+    loan = Loan(
+        principal=20_000, annual_rate="8%", periods=24, start="2027-01-10",
+        payment_months=(8, 9, 10, 11), day_count="30/360",
+    )  # fmt: skip
+    frame = loan.schedule()
+    months = [d.month for d in frame["due_date"]]
+    paid = frame["payment"].tolist()
+    assert all((p > 0) == (m in (8, 9, 10, 11)) for p, m in zip(paid[:-1], months, strict=False))
+    p = Fraction(loan.payment)
+    balance = Fraction(20_000)
+    for m in [d.month for d in loan.dated_plan().due]:
+        balance = balance * (1 + Fraction(1, 150)) - (p if m in (8, 9, 10, 11) else 0)
+    assert abs(balance) < 1  # the rounded payment leaves at most cents over the term
+    want = cent_loop(
+        Decimal(20_000),
+        Fraction(1, 150),
+        [loan.payment if m in (8, 9, 10, 11) else Decimal(0) for m in months]
+        + [Decimal(0)] * (24 - len(months)),
+    )
+    assert [Decimal(repr(v)).quantize(CENT) for v in paid] == [r[0].quantize(CENT) for r in want]
+    assert loan.reconciliation().passed
+
+
+def test_seasonal_and_custom_bad_input() -> None:
+    with pytest.raises(InvalidTerms, match="needs monthly payments and dates"):
+        Loan(principal=1000, annual_rate="5%", periods=12, payment_months=(6,))
+    with pytest.raises(InvalidTerms, match="months 1 to 12"):
+        Loan(principal=1000, annual_rate="5%", periods=12, start="2027-01-01", payment_months=(13,))
+    with pytest.raises(InvalidTerms, match="one a period"):
+        Loan(principal=1000, annual_rate="5%", periods=12, custom_payments=[100, 100])
