@@ -21,19 +21,18 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from amort import calendar, graduated, solve, variable
+from amort import graduated, solve, variable
 from amort.calendar import BusinessDay
 from amort.conventions import Frequency, Structure, Timing
 from amort.dated import DatedPlan, InterestDates, OddDays, plan
 from amort.daycount import DayCount
-from amort.errors import InvalidTerms, NoSolution, describe
+from amort.errors import InvalidTerms, NoSolution
 from amort.exact import level_payment_cents, level_payment_cents_variable
 from amort.frames import schedule_frame
 from amort.money import (
     Rounding,
     from_cents,
     parse_amount,
-    parse_number,
     parse_rate,
     round_fraction,
     round_ratio,
@@ -42,35 +41,7 @@ from amort.money import (
 from amort.rates import Compounding, periodic_rate
 from amort.reconcile import Reconciliation, reconcile
 from amort.schedule import BatchTerms, CentsTable, run
-
-
-def parse_periods(value: object, field: str = "periods") -> int:
-    """Return a number of payments: a whole number from 1 to 100,000.
-
-    >>> parse_periods("360")
-    360
-    """
-    limit = solve.MAX_PERIODS
-    rule = f"{field!r} must be a whole number of payments from 1 to {limit:,}"
-    if isinstance(value, bool):
-        raise InvalidTerms(f"{rule} (got {describe(value)})")
-    if isinstance(value, (int, np.integer)):
-        number = int(value)
-    else:
-        try:
-            exact = parse_number(value, field)
-        except InvalidTerms:
-            raise InvalidTerms(f"{rule} (got {describe(value)})") from None
-        if exact != exact.to_integral_value():
-            raise InvalidTerms(
-                f"{rule}; a fraction of a payment is not a term (got {describe(value)})"
-            )
-        number = int(exact)
-    if number < 1:
-        raise InvalidTerms(f"{rule} (got {describe(value)})")
-    if number > limit:
-        raise InvalidTerms(f"{rule}; longer terms are refused as absurd (got {describe(value)})")
-    return number
+from amort.validate import normalise_dates, normalise_structure, parse_periods
 
 
 class _AnnualRate(Decimal):
@@ -155,8 +126,8 @@ class Loan:
             set_("periods", parse_periods(self.periods))
         elif self.fixed_payment is None and self.custom_payments is None:
             raise InvalidTerms("give 'periods' (the number of payments) or 'fixed_payment'")
-        self._normalise_dates(set_)
-        self._normalise_structure(set_)
+        normalise_dates(self, set_)
+        normalise_structure(self, set_)
         per_year = self.frequency.per_year
         if self.annual_rate > per_year:
             raise InvalidTerms(
@@ -168,109 +139,6 @@ class Loan:
         self._check_payment_covers_interest()
 
     # -- derived terms -----------------------------------------------------------------
-
-    def _normalise_structure(self, set_: Any) -> None:
-        set_("structure", Structure.parse(self.structure))
-        only = self.interest_only_periods
-        if isinstance(only, bool) or not isinstance(only, (int, np.integer)) or only < 0:
-            raise InvalidTerms(
-                f"'interest_only_periods' must be a whole number >= 0 (got {describe(only)})"
-            )
-        set_("interest_only_periods", int(only))
-        if self.payment_growth is not None:
-            set_("payment_growth", parse_rate(self.payment_growth, "payment_growth"))
-        if self.payment_step is not None:
-            set_("payment_step", parse_amount(self.payment_step, "payment_step"))
-        if self.payment_growth is not None and self.payment_step is not None:
-            raise InvalidTerms(
-                "give 'payment_growth' (geometric) or 'payment_step' (arithmetic), not both"
-            )
-        if self.growth_every is None:
-            set_("growth_every", self.frequency.per_year)
-        elif (
-            isinstance(self.growth_every, bool)
-            or not isinstance(self.growth_every, (int, np.integer))
-            or self.growth_every < 1
-        ):
-            raise InvalidTerms(
-                "'growth_every' must be a whole number of periods >= 1 "
-                f"(got {describe(self.growth_every)})"
-            )
-        self._normalise_custom(set_)
-        if self.graduated and self.structure is not Structure.LEVEL:
-            raise InvalidTerms(
-                f"graduated payments apply to the 'level' structure (got {self.structure.value!r})"
-            )
-        if not self.structured:
-            return
-        if self.periods is None or self.fixed_payment is not None:
-            raise InvalidTerms(
-                f"structure {self.structure.value!r} with interest-only periods needs 'periods' "
-                "and no 'fixed_payment'"
-                if self.structure is Structure.LEVEL
-                else f"structure {self.structure.value!r} needs 'periods' and no 'fixed_payment'"
-            )
-        if self.advance:
-            raise InvalidTerms(
-                f"structure {self.structure.value!r} and interest-only periods are for "
-                "payments in arrears in this version"
-            )
-        if self.structure is Structure.BULLET and self.balloon > 0:
-            raise InvalidTerms(
-                "a bullet loan repays all its principal with the last payment; give no 'balloon'"
-            )
-        if self.structure is not Structure.BULLET and self.interest_only_periods >= self.periods:
-            raise InvalidTerms(
-                f"'interest_only_periods' must be fewer than the {self.periods:,} payments "
-                f"(got {self.interest_only_periods:,}); for interest only to the end use "
-                "structure 'bullet'"
-            )
-
-    def _normalise_custom(self, set_: Any) -> None:
-        others = (
-            self.structure is not Structure.LEVEL
-            or self.interest_only_periods > 0
-            or self.payment_growth is not None
-            or self.payment_step is not None
-            or self.fixed_payment is not None
-        )
-        if self.custom_payments is not None:
-            amounts = tuple(
-                parse_amount(v, f"custom_payments[{k}]", allow_zero=True)
-                for k, v in enumerate(self.custom_payments)
-            )
-            if not amounts:
-                raise InvalidTerms("'custom_payments' must list at least one payment")
-            if self.periods is None:
-                set_("periods", parse_periods(len(amounts)))
-            if len(amounts) != self.periods:
-                raise InvalidTerms(
-                    f"'custom_payments' lists {len(amounts):,} payments for {self.periods:,} "
-                    "periods; give one a period (the last one pays what is left)"
-                )
-            if others or self.payment_months is not None:
-                raise InvalidTerms(
-                    "'custom_payments' set every payment; give no other payment rule with them"
-                )
-            set_("custom_payments", amounts)
-        if self.payment_months is not None:
-            months = tuple(sorted(set(int(m) for m in self.payment_months)))
-            if not months or any(m < 1 or m > 12 for m in months):
-                raise InvalidTerms(
-                    f"'payment_months' must be months 1 to 12 (got {describe(self.payment_months)})"
-                )
-            if self.frequency is not Frequency.MONTHLY or (
-                self.start is None and (self.first_payment is None)
-            ):
-                raise InvalidTerms(
-                    "'payment_months' (a seasonal loan) needs monthly payments and dates: "
-                    "give 'start' or 'first_payment'"
-                )
-            if others:
-                raise InvalidTerms(
-                    "'payment_months' combines with the level structure only, in this version"
-                )
-            set_("payment_months", months)
 
     @property
     def seasonal(self) -> bool:
@@ -310,66 +178,6 @@ class Loan:
             step_cents=None if self.payment_step is None else to_cents(self.payment_step),
             mode=self.rounding,
         )
-
-    def _normalise_dates(self, set_: Any) -> None:
-        set_("day_count", DayCount.parse(self.day_count))
-        set_("business_days", BusinessDay.parse(self.business_days, "business_days"))
-        set_("odd_days", OddDays.parse(self.odd_days))
-        set_("interest_dates", InterestDates.parse(self.interest_dates))
-        set_("semimonthly_days", calendar.parse_semimonthly_days(self.semimonthly_days))
-        if not isinstance(self.end_of_month, bool):
-            raise InvalidTerms(f"'end_of_month' must be true or false (got {self.end_of_month!r})")
-        if self.compounding is not None:
-            set_("compounding", Compounding.parse(self.compounding))
-        if self.holidays is not None:
-            calendar.parse_holiday_calendar(self.holidays, "holidays")
-        start = None if self.start is None else calendar.parse_date(self.start, "start")
-        first = (
-            None
-            if self.first_payment is None
-            else calendar.parse_date(self.first_payment, "first_payment")
-        )
-        set_("start", start)
-        set_("first_payment", first)
-        # Derived dates are kept apart from the fields, so that replace() with a
-        # new start derives a new first payment instead of keeping the old one.
-        eom, pair = self.end_of_month, self.semimonthly_days
-        if start is not None and first is None:
-            if self.advance:
-                first = start
-            else:
-                try:
-                    first = calendar.due_dates(
-                        start, 2, self.frequency, end_of_month=eom, semimonthly_days=pair
-                    ).unadjusted[1]
-                except InvalidTerms as exc:
-                    raise InvalidTerms(str(exc).replace("'first_payment'", "'start'")) from None
-        elif first is not None and start is None:
-            start = (
-                first
-                if self.advance
-                else calendar.regular_period_start(
-                    first, self.frequency, end_of_month=eom, semimonthly_days=pair
-                )
-            )
-        self.__dict__["_dates"] = (start, first)
-        if start is None:
-            if self.day_count is not DayCount.EQUAL:
-                raise InvalidTerms(
-                    f"'day_count' {self.day_count.value!r} needs dates: give 'start' "
-                    "(the disbursement date) and 'first_payment'"
-                )
-            if self.business_days is not BusinessDay.NONE:
-                raise InvalidTerms(
-                    f"'business_days' {self.business_days.value!r} needs dates: give 'start'"
-                )
-            if self.holidays is not None:
-                raise InvalidTerms(f"'holidays' {self.holidays!r} needs dates: give 'start'")
-        if self.compounding is not None and self.day_count is not DayCount.EQUAL:
-            raise InvalidTerms(
-                f"'compounding' applies under the 'equal' day count; under "
-                f"{self.day_count.value!r} each period earns simple interest for its days"
-            )
 
     @property
     def dated(self) -> bool:
