@@ -15,7 +15,7 @@ import typer
 from amort.conventions import Frequency, Structure, Timing
 from amort.daycount import DayCount
 from amort.errors import InvalidTerms
-from amort.loan import Loan, parse_periods
+from amort.loan import AnnualRate, Loan, parse_periods
 from amort.money import Rounding, parse_amount, parse_number, parse_rate
 
 FREQUENCIES = ", ".join(f.value for f in Frequency)
@@ -276,7 +276,7 @@ def build_loan(
         structure=Structure.parse(structure),
         interest_only_periods=interest_only,
         principal=parse_amount(require(principal, "--principal", verb), "principal"),
-        annual_rate=parse_rate(require(rate, "--rate", verb), "rate", percent=True),
+        annual_rate=AnnualRate(parse_rate(require(rate, "--rate", verb), "rate", percent=True)),
         periods=periods,
         frequency=frequency,
         balloon=parse_amount(balloon, "balloon", allow_zero=True),

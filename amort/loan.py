@@ -21,12 +21,14 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from amort import events as events_
 from amort import graduated, solve, variable
 from amort.calendar import BusinessDay
 from amort.conventions import Frequency, Structure, Timing
 from amort.dated import DatedPlan, InterestDates, OddDays, plan
 from amort.daycount import DayCount
 from amort.errors import InvalidTerms, NoSolution
+from amort.events import Event
 from amort.exact import level_payment_cents, level_payment_cents_variable
 from amort.frames import schedule_frame
 from amort.money import (
@@ -44,8 +46,11 @@ from amort.schedule import BatchTerms, CentsTable, run
 from amort.validate import normalise_dates, normalise_structure, parse_periods
 
 
-class _AnnualRate(Decimal):
-    """A rate a Loan has already read: a decimal fraction (0.065 for 6.5 %).
+class AnnualRate(Decimal):
+    """A rate already read as a decimal fraction (0.065 for 6.5 %), taken by Loan as is.
+
+    Wrap a rate in it when it comes from :func:`amort.money.parse_rate` (the CLI,
+    a terms file), so that a rate above 100 % a year is not refused as a slip.
 
     It compares, hashes and prints as the :class:`~decimal.Decimal` it is. A
     Loan keeps its rate in this form so that :func:`dataclasses.replace`,
@@ -107,13 +112,14 @@ class Loan:
     growth_every: int | None = None
     custom_payments: tuple[Decimal, ...] | None = None
     payment_months: tuple[int, ...] | None = None
+    events: tuple[Event, ...] = ()
 
     def __post_init__(self) -> None:
         set_ = functools.partial(object.__setattr__, self)
         set_("principal", parse_amount(self.principal, "principal"))
         rate = self.annual_rate
-        if type(rate) is not _AnnualRate:
-            rate = _AnnualRate(parse_rate(rate, "annual_rate"))
+        if type(rate) is not AnnualRate:
+            rate = AnnualRate(parse_rate(rate, "annual_rate"))
         set_("annual_rate", rate)
         set_("frequency", Frequency.parse(self.frequency))
         set_("timing", Timing.parse(self.timing))
@@ -165,6 +171,15 @@ class Loan:
             or self.graduated
             or self.custom_payments is not None
             or self.seasonal
+            or bool(self.events)
+        )
+
+    @functools.cached_property
+    def _event_rules(self) -> events_.EventRules:
+        assert self.periods is not None
+        rates = self._base_rates(self.periods)
+        return events_.rules(
+            self, rates if rates is not None else [self.periodic_rate] * self.periods
         )
 
     def _payment_path(self, horizon: int) -> list[int]:
@@ -259,6 +274,14 @@ class Loan:
 
     def _rates_for(self, periods: int) -> list[Fraction] | None:
         """Each period's exact rate, or None when every period earns the periodic rate."""
+        if self.events and periods == self.periods:
+            rates = self._event_rules.rates
+            regular = self.periodic_rate
+            return None if all(r == regular for r in rates) else list(rates)
+        return self._base_rates(periods)
+
+    def _base_rates(self, periods: int) -> list[Fraction] | None:
+        """Each period's exact rate before any rate reset (None: all the periodic rate)."""
         if not self.dated:
             return None
         rates = list(self._plan_for(periods).rates)
@@ -323,6 +346,8 @@ class Loan:
         pay = self._level_cents
         if self.structure is Structure.BULLET or self.custom_payments is not None:
             return  # interest only, or every payment set by the user
+        if self.events:
+            return  # each segment is solved from its balance by the closed form
         if self.seasonal:
             return  # skipped months add interest; the closed form repays by maturity
         if self.structure is Structure.EQUAL_PRINCIPAL:
@@ -332,6 +357,12 @@ class Loan:
                     f"rounds to {from_cents(pay):,}; use fewer payments"
                 )
             return
+        if pay <= 0 and self.graduated:
+            field = "payment_growth" if self.payment_growth is not None else "payment_step"
+            raise InvalidTerms(
+                f"{field!r} {getattr(self, field)} is too large for the term: the first payment "
+                f"would be {from_cents(pay):,}; lower it or shorten the term"
+            )
         if pay <= 0:
             raise InvalidTerms(
                 f"the level payment of {self.principal:,} over {self.periods:,} payments "
@@ -376,6 +407,8 @@ class Loan:
             return round_ratio(owed - to_cents(self.balloon), amortising, self.rounding)
         if self.custom_payments is not None:
             return to_cents(self.custom_payments[0])
+        if self.events:
+            return next((p for p in self._event_rules.payments if p), 0)
         rates = self._rates_for(self.periods)
         if self.seasonal:
             paying = self._paying(self.periods)
@@ -526,7 +559,12 @@ class Loan:
         if self.structured:
             ks = np.arange(1, horizon + 1)
             only = ks <= self.interest_only_periods
-            if self.custom_payments is not None:
+            if self.events:
+                ev = self._event_rules
+                path = [p + x for p, x in zip(ev.payments, ev.extras, strict=True)]
+                rule_payment = np.asarray(path, dtype=np.int64)[:, None]
+                rule_covers = np.zeros((horizon, 1), dtype=bool)
+            elif self.custom_payments is not None:
                 path = [to_cents(v) for v in self.custom_payments]
                 rule_payment = np.asarray(path, dtype=np.int64)[:, None]
                 rule_covers = np.zeros((horizon, 1), dtype=bool)
@@ -602,6 +640,8 @@ class Loan:
         closing_balance``, then ``balloon`` when the loan has one.
         """
         frame = schedule_frame(self._table)
+        if self.events:
+            self._event_columns(frame)
         if not self.dated:
             return frame
         rows = len(frame)
@@ -619,6 +659,25 @@ class Loan:
             separate[0] = self._separate_cents / 100
             frame["odd_days_interest"] = separate
         return frame
+
+    def _event_columns(self, frame: pd.DataFrame) -> None:
+        """Split extra principal out of the payment; show capitalised holiday interest."""
+        ev = self._event_rules
+        rows = len(frame)
+        regular = np.asarray(ev.payments[:rows], dtype=np.int64)
+        paid = np.rint(frame["payment"].to_numpy() * 100).astype(np.int64)
+        extra = np.clip(paid - regular, 0, np.asarray(ev.extras[:rows], dtype=np.int64))
+        if extra.any():
+            frame["payment"] = (paid - extra) / 100
+            frame["principal"] = frame["principal"] - extra / 100
+            frame["extra_principal"] = extra / 100
+        holiday = np.asarray([k in ev.holidays for k in range(1, rows + 1)])
+        if holiday.any():
+            capitalised = np.where(holiday, frame["interest"].to_numpy(), 0.0)
+            frame["principal"] = np.where(holiday, 0.0, frame["principal"])
+            frame["capitalised"] = capitalised
+        if any(isinstance(e, events_.RateReset) for e in self.events) and "rate" not in frame:
+            frame["rate"] = [float(r) for r in ev.rates[:rows]]
 
     def summary(self) -> dict[str, Any]:
         """Return the key figures: payment, number of payments, final payment, totals, maturity.

@@ -17,7 +17,7 @@ from typing import Any
 from amort import rates, solve
 from amort.conventions import Frequency, Timing
 from amort.errors import AmortError, NoSolution
-from amort.loan import Loan
+from amort.loan import AnnualRate, Loan
 from amort.money import CENT, Rounding, parse_rate
 from amort.rates import Compounding
 
@@ -136,7 +136,7 @@ def quote_rate(
     shown = Decimal(repr(annual)).quantize(Decimal("1e-10"))
     check = Loan(
         principal=principal,
-        annual_rate=shown,
+        annual_rate=AnnualRate(shown),
         periods=periods,
         frequency=frequency,
         balloon=balloon,
@@ -185,7 +185,7 @@ def quote_principal(
     Decimal('249999.99')
     """
     terms: dict[str, Any] = {
-        "annual_rate": annual_rate,
+        "annual_rate": AnnualRate(annual_rate),
         "periods": periods,
         "frequency": frequency,
         "timing": timing,
@@ -232,7 +232,7 @@ def _dated_rate(
     def loan_at(annual: float) -> Loan:
         return Loan(
             principal=principal,
-            annual_rate=parse_rate(f"{annual * 100!r}%"),
+            annual_rate=AnnualRate(parse_rate(f"{annual * 100!r}%")),
             periods=periods,
             frequency=frequency,
             balloon=balloon,

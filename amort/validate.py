@@ -13,6 +13,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from amort import calendar, solve
+from amort import events as events_
 from amort.calendar import BusinessDay
 from amort.conventions import Frequency, Structure
 from amort.dated import InterestDates, OddDays
@@ -82,6 +83,7 @@ def normalise_structure(loan: Loan, set_: Any) -> None:
             f"(got {describe(loan.growth_every)})"
         )
     normalise_custom(loan, set_)
+    normalise_events(loan, set_)
     if loan.graduated and loan.structure is not Structure.LEVEL:
         raise InvalidTerms(
             f"graduated payments apply to the 'level' structure (got {loan.structure.value!r})"
@@ -110,6 +112,32 @@ def normalise_structure(loan: Loan, set_: Any) -> None:
             f"(got {loan.interest_only_periods:,}); for interest only to the end use "
             "structure 'bullet'"
         )
+
+
+def normalise_events(loan: Loan, set_: Any) -> None:
+    """Check the loan's events: a level loan in arrears with a fixed number of payments."""
+    events = tuple(loan.events or ())
+    set_("events", events)
+    if not events:
+        return
+    plain = (
+        loan.structure is Structure.LEVEL
+        and loan.interest_only_periods == 0
+        and loan.payment_growth is None
+        and loan.payment_step is None
+        and loan.custom_payments is None
+        and loan.payment_months is None
+        and loan.fixed_payment is None
+        and loan.periods is not None
+        and not loan.advance
+    )
+    if not plain:
+        raise InvalidTerms(
+            "'events' apply to a level loan in arrears with 'periods' and no other payment rule, "
+            "in this version"
+        )
+    assert loan.periods is not None
+    events_.check(events, loan.periods)
 
 
 def normalise_custom(loan: Loan, set_: Any) -> None:
