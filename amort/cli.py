@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import os
 import sys
+from pathlib import Path
 from typing import Annotated, Any
 
 import typer
@@ -25,15 +26,18 @@ from amort.cli_options import (
     CustomPayments,
     DayCountOpt,
     EndOfMonth,
+    Extras,
     FirstPayment,
     Force,
     FrequencyOpt,
     Growth,
     GrowthEvery,
     Holidays,
+    Holidays_,
     InterestDatesOpt,
     InterestOnly,
     InterestRounding,
+    KeepPayment,
     OddDaysOpt,
     OutFile,
     PaymentMonths,
@@ -41,6 +45,8 @@ from amort.cli_options import (
     Periods,
     Principal,
     Rate,
+    Recast,
+    Resets,
     RoundingOpt,
     SemimonthlyDays,
     Start,
@@ -50,6 +56,7 @@ from amort.cli_options import (
     build_loan,
     dated_or_none,
     dated_terms,
+    parse_events,
     periods_from,
     require,
 )
@@ -62,6 +69,7 @@ from amort.cli_output import (
     figures_table,
     money,
     out,
+    print_whole,
     schedule_table,
     terms_rows,
     totals_rows,
@@ -75,6 +83,7 @@ from amort.payoff import payoff_quote
 from amort.quote import quote_payment, quote_principal, quote_rate, quote_term
 from amort.rates import Compounding
 from amort.rebates import rebates_for
+from amort.terms import read_terms
 
 app = typer.Typer(
     name="amort",
@@ -423,6 +432,12 @@ def principal_(
     ),
 )
 def schedule(
+    terms: Annotated[
+        Path | None,
+        typer.Argument(
+            help="A loan terms file (TOML, format = 1); see the README.", show_default=False
+        ),
+    ] = None,
     principal: Principal = None,
     rate: Rate = None,
     periods: Periods = None,
@@ -457,49 +472,63 @@ def schedule(
     growth_every: GrowthEvery = None,
     custom_payments: CustomPayments = None,
     payment_months: PaymentMonths = None,
+    extra: Extras = None,
+    recast: Recast = False,
+    holiday: Holidays_ = None,
+    reset: Resets = None,
+    keep_payment: KeepPayment = False,
     as_json: AsJson = False,
 ) -> None:
     """One loan's schedule to the cent, with its reconciliation against the closed form."""
     with errors():
-        freq = Frequency.parse(frequency)
-        count = (
-            None
-            if (payment is not None or custom_payments is not None)
-            and periods is None
-            and years is None
-            else (periods_from(periods, years, freq, "schedule"))
-        )
-        loan = build_loan(
-            principal=principal,
-            rate=rate,
-            periods=count,
-            frequency=freq,
-            payment=payment,
-            balloon=balloon,
-            advance=advance,
-            rounding=rounding,
-            interest_rounding=interest_rounding,
-            verb="schedule",
-            structure=structure,
-            interest_only=interest_only,
-            growth=growth,
-            step=step,
-            growth_every=growth_every,
-            custom_payments=custom_payments,
-            payment_months=payment_months,
-            dated=dated_terms(
-                start,
-                first_payment,
-                day_count,
-                compounding,
-                business_days,
-                holidays,
-                odd_days,
-                end_of_month,
-                interest_dates,
-                semimonthly_days,
-            ),
-        )
+        if terms is not None:
+            if any(v is not None for v in (principal, rate, periods, years, payment)):
+                raise InvalidTerms(
+                    "give the loan in the terms file or as options, not both "
+                    "(--principal, --rate, --periods, --years, --payment)"
+                )
+            loan = read_terms(terms).loan
+        else:
+            freq = Frequency.parse(frequency)
+            count = (
+                None
+                if (payment is not None or custom_payments is not None)
+                and periods is None
+                and years is None
+                else (periods_from(periods, years, freq, "schedule"))
+            )
+            loan = build_loan(
+                principal=principal,
+                rate=rate,
+                periods=count,
+                frequency=freq,
+                payment=payment,
+                balloon=balloon,
+                advance=advance,
+                rounding=rounding,
+                interest_rounding=interest_rounding,
+                verb="schedule",
+                structure=structure,
+                interest_only=interest_only,
+                growth=growth,
+                step=step,
+                growth_every=growth_every,
+                custom_payments=custom_payments,
+                payment_months=payment_months,
+                events=parse_events(extra, recast, holiday, reset, keep_payment),
+                dated=dated_terms(
+                    start,
+                    first_payment,
+                    day_count,
+                    compounding,
+                    business_days,
+                    holidays,
+                    odd_days,
+                    end_of_month,
+                    interest_dates,
+                    semimonthly_days,
+                ),
+            )
         frame = loan.schedule()
         figures = quote_payment(loan)
         check = loan.reconciliation()
@@ -525,7 +554,7 @@ def schedule(
         emit_json(payload)
         return
     if written is None:
-        out.print(schedule_table(frame))
+        print_whole(schedule_table(frame))
         out.print()
     out.print(figures_table("Loan", terms_rows(loan)))
     out.print()

@@ -15,6 +15,7 @@ import typer
 from amort.conventions import Frequency, Structure, Timing
 from amort.daycount import DayCount
 from amort.errors import InvalidTerms
+from amort.events import Event, ExtraPrincipal, PaymentHoliday, RateReset
 from amort.loan import AnnualRate, Loan, parse_periods
 from amort.money import Rounding, parse_amount, parse_number, parse_rate
 
@@ -174,6 +175,32 @@ PaymentMonths = Annotated[
         help="Seasonal loan: the months (1-12) payments fall in, e.g. 8,9,10,11; needs dates.",
     ),
 ]
+Extras = Annotated[
+    list[str] | None,
+    typer.Option(
+        "--extra",
+        help="Extra principal PERIOD=AMOUNT, or PERIOD=AMOUNT/EVERY to repeat it (repeatable).",
+    ),
+]
+Recast = Annotated[
+    bool,
+    typer.Option("--recast", help="After each extra payment, solve the payment again (same term)."),
+]
+Holidays_ = Annotated[
+    list[str] | None,
+    typer.Option(
+        "--holiday",
+        help="Payment holiday PERIOD or PERIODxCOUNT, interest capitalised (repeatable).",
+    ),
+]
+Resets = Annotated[
+    list[str] | None,
+    typer.Option("--reset", help="Rate reset PERIOD=RATE (percent a year) (repeatable)."),
+]
+KeepPayment = Annotated[
+    bool,
+    typer.Option("--keep-payment", help="At a rate reset keep the payment and let the term move."),
+]
 Force = Annotated[bool, typer.Option("--force", help="Replace an existing --out file.")]
 
 
@@ -259,8 +286,10 @@ def build_loan(
     growth_every: int | None = None,
     custom_payments: str | None = None,
     payment_months: str | None = None,
+    events: tuple[Event, ...] = (),
 ) -> Loan:
     return Loan(
+        events=events,
         custom_payments=None
         if custom_payments is None
         else tuple(
@@ -285,3 +314,59 @@ def build_loan(
         rounding=Rounding.parse(rounding, "rounding"),
         interest_rounding=Rounding.parse(interest_rounding, "interest-rounding"),
     )
+
+
+def _whole(text: str, field: str) -> int:
+    try:
+        value = int(text.strip())
+    except ValueError:
+        raise InvalidTerms(
+            f"{field!r} must be a whole period number (got {text.strip()!r})"
+        ) from None
+    return value
+
+
+def parse_events(
+    extras: list[str] | None,
+    recast: bool,
+    holidays: list[str] | None,
+    resets: list[str] | None,
+    keep_payment: bool,
+) -> tuple[Event, ...]:
+    """Return the events the --extra, --holiday and --reset options describe."""
+    out: list[Event] = []
+    for text in extras or []:
+        period, sep, rest = text.partition("=")
+        if not sep:
+            raise InvalidTerms(
+                f"'--extra' must be PERIOD=AMOUNT or PERIOD=AMOUNT/EVERY (got {text!r})"
+            )
+        amount, _, every = rest.partition("/")
+        out.append(
+            ExtraPrincipal(
+                period=_whole(period, "--extra"),
+                amount=parse_amount(amount, "--extra"),
+                every=_whole(every, "--extra") if every else None,
+                recast=recast,
+            )
+        )
+    for text in holidays or []:
+        period, _, count = text.lower().partition("x")
+        out.append(
+            PaymentHoliday(
+                period=_whole(period, "--holiday"),
+                count=_whole(count, "--holiday") if count else 1,
+            )
+        )
+    for text in resets or []:
+        period, sep, rate = text.partition("=")
+        if not sep:
+            raise InvalidTerms(f"'--reset' must be PERIOD=RATE (got {text!r})")
+        out.append(
+            RateReset(
+                period=_whole(period, "--reset"),
+                annual_rate=parse_rate(rate, "--reset", percent=True),
+                reamortise=not keep_payment,
+            )
+        )
+    return tuple(out)

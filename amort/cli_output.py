@@ -17,6 +17,7 @@ from typing import Any
 import pandas as pd
 import typer
 from rich.console import Console
+from rich.measure import Measurement
 from rich.table import Table
 
 from amort.caution import CAUTION
@@ -163,3 +164,13 @@ def checks_table(check: Any) -> Table:
     for name, figures, passed in check.checks:
         table.add_row(name, figures, "pass" if passed else "[bold red]FAIL[/bold red]")
     return table
+
+
+def print_whole(table: Table) -> None:
+    """Print ``table`` without ever cutting a figure: wider than the screen if need be."""
+    needed = Measurement.get(out, out.options.update(max_width=10_000), table).maximum
+    if needed <= out.width:
+        out.print(table)
+        return
+    wide = Console(highlight=False, soft_wrap=False, width=needed, file=out.file)
+    wide.print(table)

@@ -386,3 +386,29 @@ def test_custom_payments_and_seasonal_months() -> None:
         "--payment-months", "6",
     )  # fmt: skip
     assert code == 2 and "needs monthly payments and dates" in stderr
+
+
+def test_schedule_reads_a_terms_file() -> None:
+    data = as_json("schedule", "examples/tallowmere_equipment.toml")
+    assert data["reconciliation"]["passed"] is True
+    code, _, stderr = invoke("schedule", "examples/tallowmere_equipment.toml", "--rate", "5")
+    assert code == 2 and "not both" in stderr
+    code, _, stderr = invoke("schedule", "no-such-terms.toml")
+    assert code == 2 and "no such terms file" in stderr
+
+
+def test_schedule_events_from_options() -> None:
+    data = as_json(
+        "schedule", "--principal", "20000", "--rate", "6", "--periods", "24",
+        "--extra", "6=5000", "--holiday", "3x2", "--reset", "13=9", "--keep-payment",
+    )  # fmt: skip
+    rows = data["schedule"]
+    assert rows[5]["extra_principal"] == 5000.0
+    assert rows[2]["payment"] == 0.0 and rows[2]["capitalised"] == rows[2]["interest"]
+    assert rows[12]["rate"] == 0.0075  # 9 % / 12 from period 13
+    assert data["number_of_payments"] < 24  # the payment stays, so the extra shortens the term
+    assert data["reconciliation"]["passed"] is True
+    code, _, stderr = invoke(
+        "schedule", "--principal", "1000", "--rate", "5", "--periods", "12", "--extra", "six"
+    )
+    assert code == 2 and "--extra" in stderr
