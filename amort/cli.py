@@ -22,6 +22,7 @@ from amort.cli_options import (
     AsJson,
     Balloon,
     BusinessDays,
+    Cap,
     CompoundingOpt,
     CustomPayments,
     DayCountOpt,
@@ -127,6 +128,7 @@ def payment(
     growth: Growth = None,
     step: Step = None,
     growth_every: GrowthEvery = None,
+    cap: Cap = None,
     as_json: AsJson = False,
 ) -> None:
     """The level payment for a principal, rate and term."""
@@ -148,6 +150,7 @@ def payment(
             growth=growth,
             step=step,
             growth_every=growth_every,
+            cap=cap,
             dated=dated_terms(
                 start,
                 first_payment,
@@ -477,6 +480,7 @@ def schedule(
     holiday: Holidays_ = None,
     reset: Resets = None,
     keep_payment: KeepPayment = False,
+    cap: Cap = None,
     as_json: AsJson = False,
 ) -> None:
     """One loan's schedule to the cent, with its reconciliation against the closed form."""
@@ -513,6 +517,7 @@ def schedule(
                 growth=growth,
                 step=step,
                 growth_every=growth_every,
+                cap=cap,
                 custom_payments=custom_payments,
                 payment_months=payment_months,
                 events=parse_events(extra, recast, holiday, reset, keep_payment),

@@ -201,6 +201,14 @@ KeepPayment = Annotated[
     bool,
     typer.Option("--keep-payment", help="At a rate reset keep the payment and let the term move."),
 ]
+Cap = Annotated[
+    str | None,
+    typer.Option(
+        "--negative-amortisation-cap",
+        help="Let graduated payments below the interest grow the balance up to this amount "
+        "or percent of the principal (e.g. 110%); then a level payment amortises it.",
+    ),
+]
 Force = Annotated[bool, typer.Option("--force", help="Replace an existing --out file.")]
 
 
@@ -287,9 +295,11 @@ def build_loan(
     custom_payments: str | None = None,
     payment_months: str | None = None,
     events: tuple[Event, ...] = (),
+    cap: str | None = None,
 ) -> Loan:
     return Loan(
         events=events,
+        negative_amortisation_cap=cap,  # type: ignore[arg-type]  # Loan parses amount or "110%"
         custom_payments=None
         if custom_payments is None
         else tuple(

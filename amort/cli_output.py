@@ -77,6 +77,8 @@ def terms_rows(loan: Loan) -> list[tuple[str, str]]:
     if loan.payment_growth is not None:
         growth = (loan.payment_growth * 100).normalize()
         rows.append(("payment growth", f"{growth:f} % every {loan.growth_every} periods"))
+    if loan.negative_amortisation_cap is not None:
+        rows.append(("negative amortisation cap", money(loan.negative_amortisation_cap)))
     if loan.payment_months is not None:
         rows.append(("payment months", ", ".join(str(m) for m in loan.payment_months)))
     if loan.custom_payments is not None:
@@ -113,6 +115,14 @@ def totals_rows(figures: dict[str, Any]) -> list[tuple[str, str]]:
         ("total paid", money(figures["total_paid"])),
         ("reconciled", "yes" if figures["reconciled"] else "NO - see amort schedule"),
     ]
+    if figures.get("negative_amortisation"):
+        reached = figures.get("cap_reached_period")
+        rows.append(
+            (
+                "negative amortisation",
+                "yes" + (f", capped from period {reached}" if reached else ""),
+            )
+        )
     return rows
 
 

@@ -113,6 +113,7 @@ class Loan:
     custom_payments: tuple[Decimal, ...] | None = None
     payment_months: tuple[int, ...] | None = None
     events: tuple[Event, ...] = ()
+    negative_amortisation_cap: Decimal | None = None
 
     def __post_init__(self) -> None:
         set_ = functools.partial(object.__setattr__, self)
@@ -183,7 +184,42 @@ class Loan:
         )
 
     def _payment_path(self, horizon: int) -> list[int]:
-        """Each period's scheduled payment (graduated loans), cents."""
+        """Each period's scheduled payment (graduated loans), cents.
+
+        With a negative-amortisation cap, the first period whose closing balance
+        would pass the cap starts a level payment that amortises the balance it
+        opens with over the periods left (the closed form, exact): the cap stops
+        the growth, and the schedule says so in :meth:`summary`.
+        """
+        path = self._growth_path(horizon)
+        cap = self._cap_cents
+        if cap is None:
+            return path
+        rates = self._rates_for(horizon) or [self.periodic_rate] * horizon
+        owed = to_cents(self.principal) + self._capitalised_cents
+        terms = events_.engine_terms(owed, path, [0] * horizon, rates, to_cents(self.balloon))
+        table = run(terms, self.interest_rounding)
+        over = np.flatnonzero(table.closing[:-1] > cap)
+        if over.size == 0:
+            return path
+        k = int(over[0])  # 0-based row whose closing would pass the cap
+        level = round_fraction(
+            graduated.weighted_payment_fraction(
+                int(table.opening[k]), rates[k:], [1] * (horizon - k), to_cents(self.balloon)
+            ),
+            self.rounding,
+        )
+        self.__dict__["_cap_period"] = k + 1
+        return path[:k] + [level] * (horizon - k)
+
+    @property
+    def _cap_cents(self) -> int | None:
+        cap = self.negative_amortisation_cap
+        if cap is None:
+            return None
+        return to_cents(cap)
+
+    def _growth_path(self, horizon: int) -> list[int]:
         return graduated.payment_path(
             self._level_cents,
             horizon,
@@ -371,6 +407,8 @@ class Loan:
             )
         interest = self._first_interest_cents(pay)
         open_term = self.periods is None
+        if self.graduated and self.negative_amortisation_cap is not None:
+            return  # the balance may grow, up to the cap (see _payment_path)
         if pay < interest or (open_term and pay <= interest):
             what = "the payment" if self.fixed_payment is not None else "the level payment"
             if self.graduated:
@@ -379,8 +417,8 @@ class Loan:
                 extra = "; the balance would never be repaid"
             elif self.graduated:
                 extra = (
-                    "; the balance would grow at first (negative amortisation), which this "
-                    "version refuses: lower the growth or shorten the term"
+                    "; the balance would grow at first (negative amortisation): give "
+                    "'negative_amortisation_cap' to allow it, or lower the growth"
                 )
             elif self.balloon > 0:
                 extra = "; the balloon is too large for the term (the balance would grow)"
@@ -723,6 +761,8 @@ class Loan:
             "custom_payments": self.custom_payments is not None,
             "payment_months": self.payment_months,
             "negative_amortisation": bool((table.principal < 0).any()),
+            "negative_amortisation_cap": self.negative_amortisation_cap,
+            "cap_reached_period": self.__dict__.get("_cap_period"),
             "payment_growth": self.payment_growth,
             "payment_step": self.payment_step,
             "growth_every": self.growth_every if self.graduated else None,

@@ -40,6 +40,8 @@ def _figures(loan: Loan) -> dict[str, Any]:
         "rounding": loan.rounding.value,
         "interest_rounding": loan.interest_rounding.value,
         "reconciled": check.passed,
+        "negative_amortisation": summary["negative_amortisation"],
+        "cap_reached_period": summary["cap_reached_period"],
         **(
             {
                 key: summary[key]

@@ -8,6 +8,7 @@ one sentence naming the field, the value and what would be valid.
 
 from __future__ import annotations
 
+from decimal import Decimal
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -84,6 +85,7 @@ def normalise_structure(loan: Loan, set_: Any) -> None:
         )
     normalise_custom(loan, set_)
     normalise_events(loan, set_)
+    normalise_cap(loan, set_)
     if loan.graduated and loan.structure is not Structure.LEVEL:
         raise InvalidTerms(
             f"graduated payments apply to the 'level' structure (got {loan.structure.value!r})"
@@ -112,6 +114,29 @@ def normalise_structure(loan: Loan, set_: Any) -> None:
             f"(got {loan.interest_only_periods:,}); for interest only to the end use "
             "structure 'bullet'"
         )
+
+
+def normalise_cap(loan: Loan, set_: Any) -> None:
+    """Read the negative-amortisation cap: an amount, or a percent of the principal."""
+    cap = loan.negative_amortisation_cap
+    if cap is None:
+        return
+    if isinstance(cap, str) and cap.strip().endswith("%"):
+        share = parse_rate(cap, "negative_amortisation_cap")
+        amount = (loan.principal * share).quantize(Decimal("0.01"))
+    else:
+        amount = parse_amount(cap, "negative_amortisation_cap")
+    if not loan.graduated:
+        raise InvalidTerms(
+            "'negative_amortisation_cap' applies to graduated payments (payment_growth or "
+            "payment_step) in this version"
+        )
+    if amount < loan.principal:
+        raise InvalidTerms(
+            f"'negative_amortisation_cap' {amount:,} must be at least the principal "
+            f"{loan.principal:,} (or a percent of it, such as '110%')"
+        )
+    set_("negative_amortisation_cap", amount)
 
 
 def normalise_events(loan: Loan, set_: Any) -> None:

@@ -412,3 +412,17 @@ def test_schedule_events_from_options() -> None:
         "schedule", "--principal", "1000", "--rate", "5", "--periods", "12", "--extra", "six"
     )
     assert code == 2 and "--extra" in stderr
+
+
+def test_negative_amortisation_cap_option() -> None:
+    data = as_json(
+        "payment", "--principal", "100000", "--rate", "12", "--years", "30", "--growth", "7.5",
+        "--negative-amortisation-cap", "105%",
+    )  # fmt: skip
+    assert data["negative_amortisation"] is True
+    assert data["cap_reached_period"] == 11
+    assert data["reconciled"] is True
+    code, _, stderr = invoke(
+        "payment", "--principal", "100000", "--rate", "12", "--years", "30", "--growth", "7.5"
+    )
+    assert code == 2 and "negative_amortisation_cap" in stderr

@@ -268,6 +268,8 @@ def test_summary_keys_and_values() -> None:
         "custom_payments",
         "payment_months",
         "negative_amortisation",
+        "negative_amortisation_cap",
+        "cap_reached_period",
         "payment_growth",
         "payment_step",
         "growth_every",

@@ -100,3 +100,37 @@ def test_negative_amortisation_is_refused_with_the_figures() -> None:
 def test_growth_and_step_together_are_refused() -> None:
     with pytest.raises(InvalidTerms, match="not both"):
         Loan(principal=1000, annual_rate="5%", periods=12, payment_growth="1%", payment_step=1)
+
+
+@pytest.mark.parametrize("cap", ["105%", "150%", 120_000])
+def test_negative_amortisation_stops_at_the_cap(cap: object) -> None:
+    # A graduated payment below the interest lets the balance grow; from the first
+    # period whose closing would pass the cap, a level payment amortises the balance
+    # it opens with: P = B i / (1 - (1 + i)^-n) over the n periods left (exact fractions).
+    loan = Loan(
+        principal=100_000, annual_rate="12%", periods=360, payment_growth="7.5%",
+        negative_amortisation_cap=cap,
+    )  # fmt: skip
+    frame = loan.schedule()
+    summary = loan.summary()
+    limit = float(summary["negative_amortisation_cap"])
+    assert summary["negative_amortisation"] is True
+    assert frame["closing_balance"].max() <= limit
+    k = summary["cap_reached_period"]
+    assert k is not None
+    opening = Fraction(Decimal(repr(float(frame["opening_balance"].iloc[k - 1]))))
+    i, n = Fraction(1, 100), 360 - k + 1
+    exact = opening * i / (1 - (1 + i) ** -n)
+    assert (
+        Decimal(repr(float(frame["payment"].iloc[k - 1]))) == Decimal(round(exact * 100)) / 100
+    )  # half-up and round() agree here: no exact half-cent tie
+    assert (frame["payment"].iloc[k - 1 : -1] == frame["payment"].iloc[k - 1]).all()
+    assert loan.reconciliation().passed
+
+
+def test_a_cap_below_the_principal_is_refused() -> None:
+    with pytest.raises(InvalidTerms, match="at least the principal"):
+        Loan(
+            principal=100_000, annual_rate="12%", periods=360, payment_growth="7.5%",
+            negative_amortisation_cap=90_000,
+        )  # fmt: skip
