@@ -336,6 +336,14 @@ def _whole(text: str, field: str) -> int:
     return value
 
 
+def _when(text: str, field: str) -> dict[str, Any]:
+    """A period number, or a date written YYYY-MM-DD (for a dated loan)."""
+    text = text.strip()
+    if "-" in text:
+        return {"on": text}
+    return {"period": _whole(text, field)}
+
+
 def parse_events(
     extras: list[str] | None,
     recast: bool,
@@ -354,17 +362,17 @@ def parse_events(
         amount, _, every = rest.partition("/")
         out.append(
             ExtraPrincipal(
-                period=_whole(period, "--extra"),
+                **_when(period, "--extra"),
                 amount=parse_amount(amount, "--extra"),
                 every=_whole(every, "--extra") if every else None,
                 recast=recast,
             )
         )
     for text in holidays or []:
-        period, _, count = text.lower().partition("x")
+        period, _, count = text.lower().rpartition("x") if "x" in text.lower() else (text, "", "")
         out.append(
             PaymentHoliday(
-                period=_whole(period, "--holiday"),
+                **_when(period, "--holiday"),
                 count=_whole(count, "--holiday") if count else 1,
             )
         )
@@ -374,7 +382,7 @@ def parse_events(
             raise InvalidTerms(f"'--reset' must be PERIOD=RATE (got {text!r})")
         out.append(
             RateReset(
-                period=_whole(period, "--reset"),
+                **_when(period, "--reset"),
                 annual_rate=parse_rate(rate, "--reset", percent=True),
                 reamortise=not keep_payment,
             )

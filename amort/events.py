@@ -28,13 +28,14 @@ from __future__ import annotations
 
 import dataclasses
 from dataclasses import dataclass
+from datetime import date
 from decimal import Decimal
 from fractions import Fraction
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from amort import graduated
+from amort import calendar, graduated
 from amort.batch import BatchTerms
 from amort.errors import InvalidTerms, describe
 from amort.money import parse_amount, parse_rate, round_fraction, to_cents
@@ -49,30 +50,69 @@ def _period(value: object, field: str) -> int:
     return int(value)
 
 
+def _when(event: object) -> None:
+    """Read an event's ``period`` or ``on`` (a date): exactly one must be given."""
+    on = getattr(event, "on", None)
+    period = getattr(event, "period", None)
+    if (on is None) == (period is None):
+        raise InvalidTerms(
+            f"{type(event).__name__} needs 'period' (a period number) or 'on' (a date), one of them"
+        )
+    if on is not None:
+        object.__setattr__(event, "on", calendar.parse_date(on, "on"))
+    else:
+        object.__setattr__(event, "period", _period(period, "period"))
+
+
+def _at(event: Event) -> int:
+    """The period of an event whose date has been resolved."""
+    assert event.period is not None, "resolve 'on' first (on_periods)"
+    return event.period
+
+
+def on_periods(events: tuple[Event, ...], due: tuple[date, ...]) -> tuple[Event, ...]:
+    """Return ``events`` with each ``on`` date turned into the first period due on or after it."""
+    out: list[Event] = []
+    for event in events:
+        if event.on is None:
+            out.append(event)
+            continue
+        later = [k for k, d in enumerate(due, start=1) if d >= event.on]
+        if not later:
+            raise InvalidTerms(
+                f"{type(event).__name__} on {event.on} is after maturity (the last due date "
+                f"is {due[-1]})"
+            )
+        out.append(dataclasses.replace(event, period=later[0], on=None))
+    return tuple(out)
+
+
 @dataclass(frozen=True)
 class ExtraPrincipal:
     """An extra principal payment in ``period`` (and every ``every`` periods up to ``until``)."""
 
-    period: int
-    amount: Decimal
+    period: int | None = None
+    amount: Decimal = Decimal(0)
     every: int | None = None
     until: int | None = None
     recast: bool = False
+    on: date | None = None
 
     def __post_init__(self) -> None:
-        object.__setattr__(self, "period", _period(self.period, "period"))
+        _when(self)
         object.__setattr__(self, "amount", parse_amount(self.amount, "amount"))
         if self.every is not None:
             object.__setattr__(self, "every", _period(self.every, "every"))
         if self.until is not None:
             object.__setattr__(self, "until", _period(self.until, "until"))
-            if self.until < self.period:
+            if self.period is not None and self.until < self.period:
                 raise InvalidTerms(
                     f"'until' {self.until} is before the extra payment's first period {self.period}"
                 )
 
     def periods(self, last: int) -> list[int]:
         """The periods it falls in, up to ``last``."""
+        assert self.period is not None, "resolve 'on' first (on_periods)"
         if self.every is None:
             return [self.period] if self.period <= last else []
         stop = min(last, self.until or last)
@@ -83,15 +123,17 @@ class ExtraPrincipal:
 class PaymentHoliday:
     """No payment for ``count`` periods from ``period``; the interest is capitalised."""
 
-    period: int
+    period: int | None = None
     count: int = 1
+    on: date | None = None
 
     def __post_init__(self) -> None:
-        object.__setattr__(self, "period", _period(self.period, "period"))
+        _when(self)
         object.__setattr__(self, "count", _period(self.count, "count"))
 
     def periods(self) -> list[int]:
         """The periods without a payment."""
+        assert self.period is not None, "resolve 'on' first (on_periods)"
         return list(range(self.period, self.period + self.count))
 
 
@@ -99,12 +141,13 @@ class PaymentHoliday:
 class RateReset:
     """The annual rate becomes ``annual_rate`` from ``period`` on."""
 
-    period: int
-    annual_rate: Decimal
+    period: int | None = None
+    annual_rate: Decimal = Decimal(0)
     reamortise: bool = True
+    on: date | None = None
 
     def __post_init__(self) -> None:
-        object.__setattr__(self, "period", _period(self.period, "period"))
+        _when(self)
         object.__setattr__(self, "annual_rate", parse_rate(self.annual_rate, "annual_rate"))
 
 
@@ -130,6 +173,10 @@ def check(events: tuple[Event, ...], periods: int) -> None:
             raise InvalidTerms(
                 "'events' must be ExtraPrincipal, PaymentHoliday or RateReset "
                 f"(got {describe(event)})"
+            )
+        if event.period is None:
+            raise InvalidTerms(
+                f"{type(event).__name__} on {event.on} needs a dated loan: give 'start'"
             )
         if event.period > periods:
             raise InvalidTerms(
@@ -161,15 +208,15 @@ def rules(loan: Loan, base_rates: list[Fraction]) -> EventRules:
     n = loan.periods
     assert n is not None
     events = loan.events
-    resets = sorted((e for e in events if isinstance(e, RateReset)), key=lambda e: e.period)
-    under = {reset.period: _rates_under(loan, reset.annual_rate) for reset in resets}
+    resets = sorted((e for e in events if isinstance(e, RateReset)), key=_at)
+    under = {_at(reset): _rates_under(loan, reset.annual_rate) for reset in resets}
 
     def rates_known_at(period: int) -> list[Fraction]:
         """The rates as they stand once the resets up to ``period`` are known."""
         known = list(base_rates)
         for reset in resets:
-            if reset.period <= period:
-                known[reset.period - 1 :] = under[reset.period][reset.period - 1 :]
+            if _at(reset) <= period:
+                known[_at(reset) - 1 :] = under[_at(reset)][_at(reset) - 1 :]
         return known
 
     rates = rates_known_at(n)
@@ -186,7 +233,7 @@ def rules(loan: Loan, base_rates: list[Fraction]) -> EventRules:
 
     # Change points: a reset that re-amortises from its period; a recast after its period.
     points = sorted(
-        {e.period for e in events if isinstance(e, RateReset) and e.reamortise}
+        {_at(e) for e in events if isinstance(e, RateReset) and e.reamortise}
         | {
             p + 1
             for e in events

@@ -686,7 +686,8 @@ class Loan:
         plan_ = self._plan_for(self._engine_horizon)
         frame["due_date"] = pd.to_datetime(pd.Series(plan_.due[:rows])).astype("datetime64[ns]")
         frame["days"] = np.asarray(plan_.days[:rows], dtype=np.int64)
-        frame["rate"] = np.asarray([float(r) for r in plan_.rates[:rows]], dtype=np.float64)
+        applied = self._rates_for(self._engine_horizon) or list(plan_.rates)  # with any reset
+        frame["rate"] = np.asarray([float(r) for r in applied[:rows]], dtype=np.float64)
         if self._capitalised_cents:
             capitalised = np.zeros(rows)
             capitalised[0] = self._capitalised_cents / 100

@@ -162,6 +162,10 @@ def normalise_events(loan: Loan, set_: Any) -> None:
             "in this version"
         )
     assert loan.periods is not None
+    if loan.dated and any(e.on is not None for e in events):
+        due = loan._plan_for(loan.periods).due
+        events = events_.on_periods(events, due)
+        set_("events", events)
     events_.check(events, loan.periods)
 
 

@@ -167,3 +167,29 @@ def test_bad_events_are_refused_in_one_sentence() -> None:
             principal=1000, annual_rate="5%", periods=12,
             events=(RateReset(3, "6%"), RateReset(3, "7%")),
         )  # fmt: skip
+
+
+def test_events_on_dates_fall_in_the_first_period_due_on_or_after_them() -> None:
+    # Due dates on the 10th from 2027-02-10: a reset "on" 2027-06-01 applies from the
+    # 2027-06-10 payment, period 5; the same loan by period gives the same cents.
+    terms = {"principal": 20_000, "annual_rate": "6%", "periods": 24, "start": "2027-01-10"}
+    by_date = Loan(**terms, events=(RateReset(on="2027-06-01", annual_rate="9%"),))
+    by_period = Loan(**terms, events=(RateReset(period=5, annual_rate="9%"),))
+    assert by_date.schedule().equals(by_period.schedule())
+    with pytest.raises(InvalidTerms, match="after maturity"):
+        Loan(**terms, events=(ExtraPrincipal(on="2031-01-01", amount=100),))
+    with pytest.raises(InvalidTerms, match="needs a dated loan"):
+        Loan(
+            principal=1000, annual_rate="5%", periods=12, events=(PaymentHoliday(on="2027-03-01"),)
+        )
+    with pytest.raises(InvalidTerms, match="one of them"):
+        RateReset(period=3, on="2027-03-01", annual_rate="5%")
+
+
+def test_a_dated_schedule_shows_the_reset_rate() -> None:
+    loan = Loan(
+        principal=20_000, annual_rate="6%", periods=24, start="2027-01-10",
+        events=(RateReset(period=5, annual_rate="9%"),),
+    )  # fmt: skip
+    rates = loan.schedule()["rate"].tolist()
+    assert rates[3] == 0.005 and rates[4] == 0.0075  # 6 % / 12, then 9 % / 12
