@@ -102,6 +102,16 @@ Decimal('374.23')
 Traceback (most recent call last):
 ...
 amort.errors.InvalidTerms: <string> line 3: unknown key 'princpal' in [loan]; did you mean ...?
+
+Events are ``[[events]]`` tables, one an event, each with a ``kind``:
+``"extra"`` (``amount``, and ``every``, ``until``, ``recast``), ``"holiday"``
+(``count``) or ``"reset"`` (``rate`` in percent a year, ``reamortise``), and
+either ``period`` (a period number) or ``on`` (a date)::
+
+    [[events]]
+    kind = "reset"
+    on = 2028-01-01
+    rate = 8.5
 """
 
 from __future__ import annotations
@@ -122,6 +132,7 @@ from typing import Any, NoReturn
 from amort import solve
 from amort.conventions import Frequency
 from amort.errors import AmortError, InvalidTerms, describe
+from amort.events import Event, ExtraPrincipal, PaymentHoliday, RateReset
 from amort.loan import Loan
 from amort.money import parse_number, parse_rate
 
@@ -217,6 +228,13 @@ _MEANT = {
 _ALSO = {"periods": ("years",)}
 
 _METADATA = ("borrower", "reference", "note")
+
+# [[events]]: kind -> the keys it takes.
+_EVENT_KEYS = {
+    "extra": ("period", "on", "amount", "every", "until", "recast"),
+    "holiday": ("period", "on", "count"),
+    "reset": ("period", "on", "rate", "reamortise"),
+}
 # A spreadsheet cell holds at most 32,767 characters (Excel's limit, from memory).
 _TEXT_LIMITS = {"borrower": 200, "reference": 200, "note": 32_767}
 
@@ -471,6 +489,9 @@ class _Reader:
     def check_layout(self, data: dict[str, Any]) -> None:
         """Refuse unknown tables and keys (with a suggestion) and values of the wrong type."""
         for name, value in data.items():
+            if name == "events":
+                self._check_events(value)
+                continue
             if name in _SCHEMA and name:
                 if not isinstance(value, dict):
                     self.fail(f"{name!r} must be a table, [{name}] (got {_show(value)})", name)
@@ -480,6 +501,48 @@ class _Reader:
                 self._check_entry("", name, value)
         if "loan" not in data:
             self.fail("needs a [loan] table with at least 'principal', 'rate' and 'periods'")
+
+    def _check_events(self, value: object) -> None:
+        """``[[events]]``: each a table with ``kind`` and that kind's keys."""
+        if not isinstance(value, list) or not all(isinstance(v, dict) for v in value):
+            self.fail("'events' must be [[events]] tables, one an event", "events")
+        for number, event in enumerate(value, start=1):
+            kind = event.get("kind")
+            if kind not in _EVENT_KEYS:
+                valid = ", ".join(repr(k) for k in _EVENT_KEYS)
+                self.fail(
+                    f"event {number}: 'kind' must be one of {valid} (got {_show(kind)})", "events"
+                )
+            allowed = _EVENT_KEYS[kind]
+            for key in event:
+                if key != "kind" and key not in allowed:
+                    near = difflib.get_close_matches(key, allowed, n=1)
+                    hint = f"; did you mean {near[0]!r}?" if near else ""
+                    self.fail(f"event {number} ({kind}): unknown key {key!r}{hint}", "events")
+            if ("period" in event) == ("on" in event):
+                self.fail(
+                    f"event {number} ({kind}): give 'period' or 'on' (a date), one of them",
+                    "events",
+                )
+
+    def events(self, data: dict[str, Any]) -> tuple[Any, ...]:
+        """Return the events of ``[[events]]`` (their types checked by the event classes)."""
+        out: list[Event] = []
+        for number, event in enumerate(data.get("events", []), start=1):
+            args = {k: v for k, v in event.items() if k != "kind"}
+            if "rate" in args:
+                try:
+                    parse_rate(args["rate"], "rate", percent=True)
+                except InvalidTerms as exc:
+                    self.fail(f"event {number} (reset): {exc}", "events", "rate")
+                text = str(args.pop("rate")).strip()
+                args["annual_rate"] = text if text.endswith("%") else f"{text}%"
+            kinds = {"extra": ExtraPrincipal, "holiday": PaymentHoliday, "reset": RateReset}
+            try:
+                out.append(kinds[event["kind"]](**args))
+            except InvalidTerms as exc:
+                self.fail(f"event {number} ({event['kind']}): {exc}", "events")
+        return tuple(out)
 
     def _check_entry(self, table: str, key: str, value: object) -> None:
         kind = _SCHEMA[table].get(key)
@@ -539,6 +602,9 @@ class _Reader:
                 keywords[renamed.get(key, key)] = value
         if "compounding" in rates:
             keywords["compounding"] = rates["compounding"]
+        events = self.events(data)
+        if events:
+            keywords["events"] = events
         return keywords, metadata
 
     def build(self, keywords: dict[str, Any]) -> Loan:

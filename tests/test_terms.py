@@ -754,3 +754,64 @@ def test_any_document_gives_a_loan_or_one_placed_sentence(
             assert f"'{field}'" not in message
     else:
         assert isinstance(read.loan, Loan)
+
+
+EVENTS_FILE = """format = 1
+[loan]
+principal = 20000
+rate = 6
+periods = 24
+
+[dates]
+start = 2027-01-10
+
+[[events]]
+kind = "extra"
+period = 6
+amount = 5000
+recast = true
+
+[[events]]
+kind = "reset"
+on = 2027-12-01
+rate = 8.5
+
+[[events]]
+kind = "holiday"
+period = 3
+count = 2
+"""
+
+
+def test_events_in_a_terms_file_equal_the_same_events_as_objects() -> None:
+    from amort import Loan
+    from amort.events import ExtraPrincipal, PaymentHoliday, RateReset
+
+    terms = parse_terms(EVENTS_FILE, source="terms.toml")
+    same = Loan(
+        principal=20_000, annual_rate="6%", periods=24, start="2027-01-10",
+        events=(
+            ExtraPrincipal(period=6, amount=5000, recast=True),
+            RateReset(on="2027-12-01", annual_rate="8.5%"),
+            PaymentHoliday(period=3, count=2),
+        ),
+    )  # fmt: skip
+    assert terms.loan.schedule().equals(same.schedule())
+    assert terms.loan.reconciliation().passed
+
+
+@pytest.mark.parametrize(
+    ("event", "line", "needle"),
+    [
+        ('kind = "extr"\nperiod = 2\n', 6, "'kind' must be one of"),
+        ('kind = "extra"\nperiod = 2\namount = 5\nrecst = true\n', 6, "did you mean 'recast'"),
+        ('kind = "reset"\nperiod = 2\nrate = -3\n', 9, "'rate' must be >= 0"),
+        ('kind = "holiday"\nperiod = 2\non = 2027-01-01\n', 6, "one of them"),
+    ],
+)
+def test_bad_events_name_their_line(event: str, line: int, needle: str) -> None:
+    text = "format = 1\n[loan]\nprincipal = 1000\nrate = 5\nperiods = 12\n[[events]]\n" + event
+    with pytest.raises(InvalidTerms) as caught:
+        parse_terms(text, source="terms.toml")
+    assert str(caught.value).startswith(f"terms.toml line {line}: ")
+    assert needle in str(caught.value)
