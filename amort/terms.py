@@ -112,6 +112,11 @@ either ``period`` (a period number) or ``on`` (a date)::
     kind = "reset"
     on = 2028-01-01
     rate = 8.5
+
+``[structure]`` also takes ``payments`` (every payment listed, the last paying
+what is left), ``payment_months`` (a seasonal loan's months, 1 to 12) and
+``negative_amortisation_cap`` (an amount, or a percent of the principal such
+as ``"110%"``, for graduated payments).
 """
 
 from __future__ import annotations
@@ -157,6 +162,8 @@ _RULES = {
     "holidays": 'a calendar code such as "US-NY", or an array such as ["US", "NY"]',
     "compounding": 'a number of times a year or a name, such as 2 or "semiannual"',
     "text": "a string",
+    "amounts": 'an array of amounts, such as [500, 500, "1,500.00"]',
+    "months": "an array of months 1 to 12, such as [8, 9, 10, 11]",
 }
 
 # The layout: table -> key -> kind. The top level is the table "".
@@ -194,6 +201,9 @@ _SCHEMA: dict[str, dict[str, str]] = {
         "growth": "percent",
         "step": "amount",
         "growth_every": "whole",
+        "payments": "amounts",
+        "payment_months": "months",
+        "negative_amortisation_cap": "amount",
     },
     "rates": {"compounding": "compounding"},
 }
@@ -208,6 +218,7 @@ _KEY_OF_FIELD = {
     "structure": "kind",
     "payment_growth": "growth",
     "payment_step": "step",
+    "custom_payments": "payments",
 }
 
 # Names a user may reach for, and the key meant (table, key).
@@ -569,7 +580,7 @@ class _Reader:
                 self.fail(f"[loan] needs {needed!r}")
         if "periods" in loan and "years" in loan:
             self.fail("give 'periods' or 'years' in [loan], not both", "loan", "years")
-        if not {"periods", "years", "payment"} & loan.keys():
+        if not {"periods", "years", "payment"} & loan.keys() and "payments" not in structure:
             self.fail(
                 "[loan] needs 'periods' (the number of payments) or 'years', "
                 "or a 'payment' from which the term follows"
@@ -594,9 +605,11 @@ class _Reader:
             if key in ("holidays", "semimonthly_days") and isinstance(value, list):
                 value = tuple(value)
             keywords[key] = value
-        renamed = {"kind": "structure", "step": "payment_step"}
+        renamed = {"kind": "structure", "step": "payment_step", "payments": "custom_payments"}
         for key, value in structure.items():
-            if key == "growth":
+            if key in ("payments", "payment_months"):
+                keywords[renamed.get(key, key)] = tuple(value)
+            elif key == "growth":
                 keywords["payment_growth"] = self._percent("structure", key, value)
             else:
                 keywords[renamed.get(key, key)] = value
@@ -733,6 +746,18 @@ def _fits(kind: str, value: object) -> bool:
         )
     if kind == "compounding":
         return isinstance(value, (int, str))
+    if kind == "amounts":
+        return (
+            isinstance(value, list)
+            and len(value) >= 1
+            and all(isinstance(v, (int, Decimal, str)) and not isinstance(v, bool) for v in value)
+        )
+    if kind == "months":
+        return (
+            isinstance(value, list)
+            and len(value) >= 1
+            and all(isinstance(v, int) and not isinstance(v, bool) for v in value)
+        )
     return False
 
 

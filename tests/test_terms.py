@@ -815,3 +815,34 @@ def test_bad_events_name_their_line(event: str, line: int, needle: str) -> None:
         parse_terms(text, source="terms.toml")
     assert str(caught.value).startswith(f"terms.toml line {line}: ")
     assert needle in str(caught.value)
+
+
+def test_structure_table_takes_listed_payments_months_and_a_cap() -> None:
+    from amort import Loan
+
+    listed = parse_terms(
+        "format = 1\n[loan]\nprincipal = 5000\nrate = 9\n"
+        "[structure]\npayments = [500, 500, 500, 1500, 1500, 1000]\n",
+        source="terms.toml",
+    )
+    same = Loan(principal=5000, annual_rate="9%", custom_payments=(500, 500, 500, 1500, 1500, 1000))
+    assert listed.loan.schedule().equals(same.schedule())
+    seasonal = parse_terms(
+        "format = 1\n[loan]\nprincipal = 20000\nrate = 8\nperiods = 12\n[dates]\n"
+        'start = 2027-05-10\nday_count = "30/360"\n[structure]\npayment_months = [8, 9, 10, 11]\n',
+        source="terms.toml",
+    )
+    assert seasonal.loan.payment_months == (8, 9, 10, 11)
+    assert seasonal.loan.reconciliation().passed
+    capped = parse_terms(
+        "format = 1\n[loan]\nprincipal = 100000\nrate = 12\nyears = 30\n[structure]\n"
+        'growth = 7.5\nnegative_amortisation_cap = "105%"\n',
+        source="terms.toml",
+    )
+    assert capped.loan.summary()["cap_reached_period"] == 11
+    with pytest.raises(InvalidTerms, match=r"terms.toml line 7: 'payments' in \[structure\]"):
+        parse_terms(
+            "format = 1\n[loan]\nprincipal = 5000\nrate = 9\nperiods = 12\n[structure]\n"
+            "payments = [500, true]\n",
+            source="terms.toml",
+        )
