@@ -94,6 +94,28 @@ def level_payment_cents(
     return out
 
 
+def cents_if_clear(approx: float, mode: Rounding) -> int | None:
+    """Return ``approx`` (cents, float) rounded under ``mode``, or None when too near a boundary.
+
+    The float value decides the cent only when it lies more than 1e-9
+    (relative) from every rounding boundary; otherwise, or when it is not
+    finite, the caller computes the exact fraction.
+
+    >>> cents_if_clear(1234.2, Rounding.HALF_UP), cents_if_clear(12.5, Rounding.HALF_UP)
+    (1234, None)
+    """
+    if not np.isfinite(approx):
+        return None
+    tolerance = _TRUST * max(1.0, abs(approx))
+    if mode.half_unit:
+        near = abs(approx - np.floor(approx) - 0.5) <= tolerance
+        cents = int(np.floor(approx + 0.5))
+    else:
+        near = abs(approx - round(approx)) <= tolerance
+        cents = int(np.ceil(approx)) if mode is Rounding.UP else int(np.floor(approx))
+    return None if near else cents
+
+
 def interest_cents(balance_cents: int, rate: Fraction, mode: Rounding) -> int:
     """Return ``balance x rate`` rounded to the cent (scalar reference of the engine's rule)."""
     return round_ratio(balance_cents * rate.numerator, rate.denominator, mode)
@@ -138,15 +160,8 @@ def level_payment_cents_variable(
     """
     floats = np.asarray([float(r) for r in rates], dtype=np.float64)[:, None]
     approx = float(variable.payment(principal_cents, floats, balloon_cents, advance)[0])
-    if np.isfinite(approx):
-        if mode.half_unit:
-            frac = approx - np.floor(approx)
-            near = abs(frac - 0.5) <= _TRUST * max(1.0, approx)
-            cents = int(np.floor(approx + 0.5))
-        else:
-            near = abs(approx - round(approx)) <= _TRUST * max(1.0, approx)
-            cents = int(np.ceil(approx)) if mode is Rounding.UP else int(np.floor(approx))
-        if not near:
-            return cents
+    cents = cents_if_clear(approx, mode)
+    if cents is not None:
+        return cents
     exact = level_payment_fraction_variable(principal_cents, rates, balloon_cents, advance)
     return round_fraction(exact, mode)

@@ -27,11 +27,9 @@ from fractions import Fraction
 
 import numpy as np
 
+from amort.exact import cents_if_clear
 from amort.money import Rounding, round_fraction
 
-# Relative distance from a rounding boundary below which the float value is
-# not trusted to decide the cent (as in amort.exact).
-_TRUST = 1e-9
 # Up to this many periods the first payment is computed exactly every time.
 _EXACT_UP_TO = 1_000
 
@@ -97,15 +95,9 @@ def first_payment_cents(
             step_cents=step_cents,
             balloon_cents=balloon_cents,
         )
-        if np.isfinite(approx):
-            if mode.half_unit:
-                near = abs(approx - np.floor(approx) - 0.5) <= _TRUST * max(1.0, abs(approx))
-                cents = int(np.floor(approx + 0.5))
-            else:
-                near = abs(approx - round(approx)) <= _TRUST * max(1.0, abs(approx))
-                cents = int(np.ceil(approx)) if mode is Rounding.UP else int(np.floor(approx))
-            if not near:
-                return cents
+        cents = cents_if_clear(approx, mode)
+        if cents is not None:
+            return cents
     exact = first_payment_fraction(
         owed_cents,
         rates,

@@ -145,20 +145,7 @@ def quote_rate(
         timing=timing,
         compounding=compounding,
     )
-    return {
-        "annual_rate": annual,
-        "annual_rate_percent": annual * 100,
-        "periodic_rate": periodic,
-        "effective_annual_rate": float(rates.effective_annual(periodic, per_year)),
-        "principal": principal,
-        "payment": payment,
-        "number_of_payments": periods,
-        "balloon": balloon,
-        "frequency": frequency.value,
-        "timing": timing.value,
-        "compounding": None if compounding is None else compounding.name,
-        "payment_at_rate": check.payment,
-    }
+    return _rate_figures(annual, periodic, payment, check)
 
 
 def quote_principal(
@@ -270,19 +257,26 @@ def _dated_rate(
     check = loan_at(float(Decimal(repr(annual)).quantize(Decimal("1e-10"))))
     periodic = float(check.periodic_rate)
     return {
-        "annual_rate": annual,
-        "annual_rate_percent": annual * 100,
-        "periodic_rate": periodic,
-        "effective_annual_rate": float(rates.effective_annual(periodic, per_year)),
-        "principal": principal,
-        "payment": payment,
-        "number_of_payments": periods,
-        "balloon": balloon,
-        "frequency": frequency.value,
-        "timing": timing.value,
-        "compounding": None if compounding is None else compounding.name,
-        "payment_at_rate": check.payment,
+        **_rate_figures(annual, periodic, payment, check),
         "day_count": check.day_count.value,
         "start": check.start_date,
         "first_payment_date": check.first_payment_date,
+    }
+
+
+def _rate_figures(annual: float, periodic: float, payment: Decimal, check: Loan) -> dict[str, Any]:
+    """The figures of an implied rate; ``check`` is the loan rebuilt at that rate."""
+    return {
+        "annual_rate": annual,
+        "annual_rate_percent": annual * 100,
+        "periodic_rate": periodic,
+        "effective_annual_rate": float(rates.effective_annual(periodic, check.frequency.per_year)),
+        "principal": check.principal,
+        "payment": payment,
+        "number_of_payments": check.periods,
+        "balloon": check.balloon,
+        "frequency": check.frequency.value,
+        "timing": check.timing.value,
+        "compounding": None if check.compounding is None else check.compounding.name,
+        "payment_at_rate": check.payment,
     }

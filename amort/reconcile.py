@@ -151,7 +151,8 @@ def reconcile(
     # with an infinite bound rather than fail on float overflow.
     idx = table.loan
     with np.errstate(over="ignore", invalid="ignore"):
-        exact, scale, accumulated = _closed_form_rows(terms, table)
+        forms = _VariableForms.of(terms, table) if terms.varies else None
+        exact, scale, accumulated = _closed_form_rows(terms, table, forms)
         bound_row = u * accumulated + FLOAT_ALLOWANCE * scale
         gap = np.abs(table.closing.astype(np.float64) - exact)
     vacuous = ~np.isfinite(bound_row)
@@ -169,12 +170,11 @@ def reconcile(
 
     f = terms.balloon.astype(np.float64)
     scheduled_final = level
-    if terms.structured:
-        sched = scheduled_payments(terms, table)
-        scheduled_final = sched[np.maximum(rows - 1, 0), np.arange(loans)]
+    if forms is not None and forms.scheduled is not None:
+        scheduled_final = forms.scheduled[np.maximum(rows - 1, 0), np.arange(loans)]
     adjustment = table.final_payment.astype(np.float64) - scheduled_final
     with np.errstate(over="ignore", invalid="ignore"):
-        x_n, s_n, s_prev, scale_n, a = _closed_form_final(terms, rows, table)
+        x_n, s_n, s_prev, scale_n, a = _closed_form_final(terms, rows, forms)
         expected = np.where(adv_loan, (x_n - f) / a, x_n - f)
         adj_bound = np.where(adv_loan, u * s_prev + 1.5, u * s_n) + FLOAT_ALLOWANCE * scale_n
         adjustment_ok = ~np.isfinite(adj_bound) | (np.abs(adjustment - expected) <= adj_bound)
@@ -251,26 +251,46 @@ def _loan_rates(terms: BatchTerms) -> FloatArray:
     return num.astype(np.float64) / den.astype(np.float64)
 
 
+@dataclass(frozen=True)
+class _VariableForms:
+    """The variable-rate closed form of a batch, ``(max periods, loans)``, computed once.
+
+    ``scheduled`` holds each period's payment under its rule (structured
+    batches), else None and the level payment applies.
+    """
+
+    rates: FloatArray
+    balances: FloatArray
+    scales: FloatArray
+    accumulation: FloatArray
+    scheduled: FloatArray | None
+
+    @classmethod
+    def of(cls, terms: BatchTerms, table: CentsTable) -> _VariableForms:
+        b0 = terms.principal.astype(np.float64)
+        rates = _float_rates(terms)
+        if terms.structured:
+            sched = scheduled_payments(terms, table)
+            balances = variable.balances_paying(b0, rates, sched, terms.advance)
+            scales = variable.balance_scales_paying(b0, rates, sched, terms.advance)
+        else:
+            sched = None
+            level = terms.payment.astype(np.float64)
+            balances = variable.balances(b0, rates, level, terms.advance)
+            scales = variable.balance_scales(b0, rates, level, terms.advance)
+        return cls(rates, balances, scales, variable.accumulation_factors(rates), sched)
+
+
 def _closed_form_rows(
-    terms: BatchTerms, table: CentsTable
+    terms: BatchTerms, table: CentsTable, forms: _VariableForms | None
 ) -> tuple[FloatArray, FloatArray, FloatArray]:
     """Return, for every row, the closed-form balance, its scale and ``s_k`` (cents)."""
     idx = table.loan
+    if forms is not None:
+        at = (table.period - 1, idx)
+        return forms.balances[at], forms.scales[at], forms.accumulation[at]
     b0 = terms.principal.astype(np.float64)
     level = terms.payment.astype(np.float64)
-    if terms.structured:
-        rates = _float_rates(terms)
-        at = (table.period - 1, idx)
-        sched = scheduled_payments(terms, table)
-        exact = variable.balances_paying(b0, rates, sched, terms.advance)[at]
-        scale = variable.balance_scales_paying(b0, rates, sched, terms.advance)[at]
-        return exact, scale, variable.accumulation_factors(rates)[at]
-    if terms.varies:
-        rates = _float_rates(terms)
-        at = (table.period - 1, idx)
-        exact = variable.balances(b0, rates, level, terms.advance)[at]
-        scale = variable.balance_scales(b0, rates, level, terms.advance)[at]
-        return exact, scale, variable.accumulation_factors(rates)[at]
     i_row = _loan_rates(terms)[idx]
     k = table.period.astype(np.float64)
     adv = terms.advance[idx]
@@ -294,25 +314,23 @@ def scheduled_payments(terms: BatchTerms, table: CentsTable) -> FloatArray:
 
 
 def _closed_form_final(
-    terms: BatchTerms, rows: npt.NDArray[np.int64], table: CentsTable | None = None
+    terms: BatchTerms, rows: npt.NDArray[np.int64], forms: _VariableForms | None
 ) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray, FloatArray]:
     """Return per loan: ``x_n``, ``s_n``, ``s_{n-1}``, the scale and ``a_n`` at its last row."""
-    b0 = terms.principal.astype(np.float64)
-    level = terms.payment.astype(np.float64)
-    if terms.varies:
-        rates = _float_rates(terms)
+    if forms is not None:
         cols = np.arange(terms.size)
         last = np.maximum(rows - 1, 0)
-        if table is not None and terms.structured:
-            sched = scheduled_payments(terms, table)
-            x = variable.balances_paying(b0, rates, sched, terms.advance)
-            sc = variable.balance_scales_paying(b0, rates, sched, terms.advance)
-        else:
-            x = variable.balances(b0, rates, level, terms.advance)
-            sc = variable.balance_scales(b0, rates, level, terms.advance)
-        acc = variable.accumulation_factors(rates)
+        acc = forms.accumulation
         s_prev = np.where(rows >= 2, acc[np.maximum(rows - 2, 0), cols], 0.0)
-        return x[last, cols], acc[last, cols], s_prev, sc[last, cols], 1.0 + rates[last, cols]
+        return (
+            forms.balances[last, cols],
+            acc[last, cols],
+            s_prev,
+            forms.scales[last, cols],
+            1.0 + forms.rates[last, cols],
+        )
+    b0 = terms.principal.astype(np.float64)
+    level = terms.payment.astype(np.float64)
     i = _loan_rates(terms)
     n = rows.astype(np.float64)
     adv = terms.advance
