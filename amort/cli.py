@@ -16,7 +16,7 @@ from typing import Annotated, Any
 import typer
 from rich.table import Table
 
-from amort import __version__, rates
+from amort import __version__, cli_annuity, cli_apr, cli_book, rates
 from amort.cli_options import (
     Advance,
     AsJson,
@@ -771,6 +771,11 @@ def formula_(
         markup=False,
     )
     caution()
+
+
+cli_apr.register(app)
+cli_annuity.register(app)
+cli_book.register(app)
 
 
 @app.callback(invoke_without_command=True)
