@@ -57,6 +57,7 @@ from amort.cli_options import (
     build_loan,
     dated_or_none,
     dated_terms,
+    loan_from_command,
     parse_events,
     periods_from,
     require,
@@ -78,6 +79,12 @@ from amort.cli_output import (
 from amort.conventions import Frequency, Timing
 from amort.errors import InvalidTerms
 from amort.formula import check_against_schedule, formula_for
+from amort.formula_segments import (
+    SegmentCheck,
+    SegmentedFormula,
+    check_segments,
+    segmented_formula_for,
+)
 from amort.io.csv import write_schedule_csv
 from amort.money import Rounding, parse_amount, parse_rate
 from amort.payoff import payoff_quote
@@ -698,14 +705,24 @@ def payoff(
 
 @app.command(
     name="formula",
-    epilog="Example: amort formula --principal 250000 --rate 6.5 --periods 360 --latex",
+    epilog=(
+        "Examples: amort formula --principal 250000 --rate 6.5 --periods 360 --latex ; "
+        "amort formula --principal 12000 --rate 6 --periods 24 --interest-only 6"
+    ),
 )
 def formula_(
+    terms: Annotated[
+        Path | None,
+        typer.Argument(
+            help="A loan terms file (TOML, format = 1); see the README.", show_default=False
+        ),
+    ] = None,
     principal: Principal = None,
     rate: Rate = None,
     periods: Periods = None,
     years: Years = None,
     frequency: FrequencyOpt = "monthly",
+    payment: PaymentOpt = None,
     balloon: Balloon = "0",
     advance: Advance = False,
     rounding: RoundingOpt = "half-up",
@@ -714,40 +731,48 @@ def formula_(
     first_payment: FirstPayment = None,
     day_count: DayCountOpt = "equal",
     compounding: CompoundingOpt = None,
+    business_days: BusinessDays = "none",
+    holidays: Holidays = None,
     odd_days: OddDaysOpt = "accrue",
+    end_of_month: EndOfMonth = False,
+    interest_dates: InterestDatesOpt = "unadjusted",
+    semimonthly_days: SemimonthlyDays = "1,15",
+    structure: StructureOpt = "level",
+    interest_only: InterestOnly = 0,
+    growth: Growth = None,
+    step: Step = None,
+    growth_every: GrowthEvery = None,
+    custom_payments: CustomPayments = None,
+    payment_months: PaymentMonths = None,
+    extra: Extras = None,
+    recast: Recast = False,
+    holiday: Holidays_ = None,
+    reset: Resets = None,
+    keep_payment: KeepPayment = False,
+    cap: Cap = None,
     latex: Annotated[bool, typer.Option("--latex", help="Also print the LaTeX form.")] = False,
     as_json: AsJson = False,
 ) -> None:
-    """The closed form of a loan's balance, derived with sympy from its recurrence."""
+    """The closed form of a loan's balance, derived with sympy from its recurrence.
+
+    A structured loan (interest-only periods, equal principal, graduated or listed
+    payments, events) gets one closed form for each run of one payment rule.
+    """
+    options = dict(locals())
+    for name in ("terms", "latex", "as_json"):
+        options.pop(name)
     with errors():
-        freq = Frequency.parse(frequency)
-        loan = build_loan(
-            principal=principal,
-            rate=rate,
-            periods=periods_from(periods, years, freq, "formula"),
-            frequency=freq,
-            payment=None,
-            balloon=balloon,
-            advance=advance,
-            rounding=rounding,
-            interest_rounding=interest_rounding,
-            verb="formula",
-            dated=dated_terms(
-                start,
-                first_payment,
-                day_count,
-                compounding,
-                "none",
-                None,
-                odd_days,
-                False,
-                "unadjusted",
-                "1,15",
-            ),
-        )
-        found = formula_for(loan)
-        gap = check_against_schedule(loan, formula=found)
-        bound = loan.reconciliation().gap_bound
+        loan = loan_from_command(terms, "formula", **options)
+        if loan.structured:
+            segmented = segmented_formula_for(loan)
+            checks = check_segments(loan, formula=segmented)
+        else:
+            found = formula_for(loan)
+            gap = check_against_schedule(loan, formula=found)
+            bound = loan.reconciliation().gap_bound
+    if loan.structured:
+        _print_segments(segmented, checks, latex=latex, as_json=as_json)
+        return
     if as_json:
         emit_json(
             {
@@ -768,6 +793,50 @@ def formula_(
     out.print(
         f"\nchecked against the cent schedule: largest gap {gap:.4f} <= bound {bound:.4f}"
         + ("" if gap <= bound else "  FAIL"),
+        markup=False,
+    )
+    caution()
+
+
+def _print_segments(
+    found: SegmentedFormula, checks: tuple[SegmentCheck, ...], *, latex: bool, as_json: bool
+) -> None:
+    gap = max((c.largest_gap for c in checks), default=0.0)
+    passed = all(c.passed for c in checks)
+    if as_json:
+        emit_json(
+            {
+                "text": found.text,
+                "latex": found.latex,
+                "segments": [
+                    {
+                        "first_period": seg.first,
+                        "last_period": seg.last,
+                        "kind": seg.kind,
+                        "opening_balance": float(seg.opening),
+                        "parameters": {k: str(v) for k, v in seg.parameters.items()},
+                        "fixed_point": None if seg.fixed_point is None else str(seg.fixed_point),
+                        "outcome": seg.outcome,
+                        "largest_gap_to_schedule": check.largest_gap,
+                        "gap_bound": check.gap_bound,
+                    }
+                    for seg, check in zip(found.segments, checks, strict=True)
+                ],
+                "final_payment": float(found.final_payment),
+                "largest_gap_to_schedule": gap,
+                "passed": passed,
+            }
+        )
+        return
+    out.print(found.text, markup=False, highlight=False, soft_wrap=True)
+    if latex:
+        out.print()
+        out.print(found.latex, markup=False, highlight=False)
+    bound = max((c.gap_bound for c in checks), default=0.0)
+    verdict = "every row within its segment's bound" if passed else "FAIL: a row passes its bound"
+    out.print(
+        f"\nchecked against the cent schedule, segment by segment:\n"
+        f"  largest gap {gap:.4f}; {verdict} (the largest bound {bound:.4f})",
         markup=False,
     )
     caution()

@@ -205,8 +205,8 @@ Cap = Annotated[
     str | None,
     typer.Option(
         "--negative-amortisation-cap",
-        help="Let graduated payments below the interest grow the balance up to this amount "
-        "or percent of the principal (e.g. 110%); then a level payment amortises it.",
+        help="Let graduated or listed payments below the interest grow the balance up to this "
+        "amount or percent of the principal (e.g. 110%); then a level payment amortises it.",
     ),
 ]
 Force = Annotated[bool, typer.Option("--force", help="Replace an existing --out file.")]
@@ -388,3 +388,65 @@ def parse_events(
             )
         )
     return tuple(out)
+
+
+def loan_from_command(terms: Path | None, verb: str, **options: Any) -> Loan:
+    """Return the loan a verb describes: from a TOML terms file, or from its options.
+
+    ``options`` are the verb's loan options by parameter name (those of
+    ``amort schedule``; a verb may leave some out). Giving both a terms file
+    and the loan's own options is refused, so nothing is silently ignored.
+    """
+    from amort.terms import read_terms  # the TOML reader is only needed for files
+
+    given = {k: options.get(k) for k in ("principal", "rate", "periods", "years", "payment")}
+    if terms is not None:
+        if any(v is not None for v in given.values()):
+            raise InvalidTerms(
+                "give the loan in the terms file or as options, not both "
+                "(--principal, --rate, --periods, --years, --payment)"
+            )
+        return read_terms(terms).loan
+    freq = Frequency.parse(options.get("frequency", "monthly"))
+    periods, years, payment = given["periods"], given["years"], given["payment"]
+    custom = options.get("custom_payments")
+    open_term = (payment is not None or custom is not None) and periods is None and years is None
+    return build_loan(
+        principal=given["principal"],
+        rate=given["rate"],
+        periods=None if open_term else periods_from(periods, years, freq, verb),
+        frequency=freq,
+        payment=payment,
+        balloon=options.get("balloon", "0"),
+        advance=options.get("advance", False),
+        rounding=options.get("rounding", "half-up"),
+        interest_rounding=options.get("interest_rounding", "half-up"),
+        verb=verb,
+        structure=options.get("structure", "level"),
+        interest_only=options.get("interest_only", 0),
+        growth=options.get("growth"),
+        step=options.get("step"),
+        growth_every=options.get("growth_every"),
+        cap=options.get("cap"),
+        custom_payments=custom,
+        payment_months=options.get("payment_months"),
+        events=parse_events(
+            options.get("extra"),
+            options.get("recast", False),
+            options.get("holiday"),
+            options.get("reset"),
+            options.get("keep_payment", False),
+        ),
+        dated=dated_terms(
+            options.get("start"),
+            options.get("first_payment"),
+            options.get("day_count", "equal"),
+            options.get("compounding"),
+            options.get("business_days", "none"),
+            options.get("holidays"),
+            options.get("odd_days", "accrue"),
+            options.get("end_of_month", False),
+            options.get("interest_dates", "unadjusted"),
+            options.get("semimonthly_days", "1,15"),
+        ),
+    )

@@ -110,8 +110,9 @@ def formula_for(loan: Loan) -> LoanFormula:
     """
     if loan.structured:
         raise InvalidTerms(
-            "the formula view covers loans with one level payment throughout for now "
-            f"(got {_structure_words(loan)})"
+            "formula_for covers loans with one level payment throughout "
+            f"(got {_structure_words(loan)}); use "
+            "amort.formula_segments.segmented_formula_for for a closed form in segments"
         )
     terms = loan.batch_terms()
     rows = loan.number_of_payments

@@ -184,14 +184,17 @@ class Loan:
         )
 
     def _payment_path(self, horizon: int) -> list[int]:
-        """Each period's scheduled payment (graduated loans), cents.
+        """Each period's scheduled payment (graduated loans), cents, capped (:meth:`_capped`)."""
+        return self._capped(self._growth_path(horizon), horizon)
 
-        With a negative-amortisation cap, the first period whose closing balance
-        would pass the cap starts a level payment that amortises the balance it
-        opens with over the periods left (the closed form, exact): the cap stops
-        the growth, and the schedule says so in :meth:`summary`.
+    def _capped(self, path: list[int], horizon: int) -> list[int]:
+        """Return the payments ``path`` with the negative-amortisation cap applied, cents.
+
+        The first period whose closing balance would pass the cap starts a level
+        payment that amortises the balance it opens with over the periods left
+        (the closed form, exact): the cap stops the growth, and the schedule says
+        so in :meth:`summary`.
         """
-        path = self._growth_path(horizon)
         cap = self._cap_cents
         if cap is None:
             return path
@@ -603,7 +606,7 @@ class Loan:
                 rule_payment = np.asarray(path, dtype=np.int64)[:, None]
                 rule_covers = np.zeros((horizon, 1), dtype=bool)
             elif self.custom_payments is not None:
-                path = [to_cents(v) for v in self.custom_payments]
+                path = self._capped([to_cents(v) for v in self.custom_payments], horizon)
                 rule_payment = np.asarray(path, dtype=np.int64)[:, None]
                 rule_covers = np.zeros((horizon, 1), dtype=bool)
             elif self.seasonal:

@@ -126,10 +126,10 @@ def normalise_cap(loan: Loan, set_: Any) -> None:
         amount = (loan.principal * share).quantize(Decimal("0.01"))
     else:
         amount = parse_amount(cap, "negative_amortisation_cap")
-    if not loan.graduated:
+    if not loan.graduated and loan.custom_payments is None:
         raise InvalidTerms(
-            "'negative_amortisation_cap' applies to graduated payments (payment_growth or "
-            "payment_step) in this version"
+            "'negative_amortisation_cap' applies to payments that may not cover the interest: "
+            "graduated payments (payment_growth or payment_step) or listed custom_payments"
         )
     if amount < loan.principal:
         raise InvalidTerms(
