@@ -22,6 +22,16 @@ from amort.rates import Compounding
 
 __version__ = "0.1.0"
 
+
+def __getattr__(name: str) -> object:
+    # Writers that need openpyxl load on first use, so that importing amort stays light.
+    if name == "write_workbook":
+        from amort.io.xlsx_loan import write_workbook
+
+        return write_workbook
+    raise AttributeError(f"module 'amort' has no attribute {name!r}")
+
+
 __all__ = [
     "CAUTION",
     "AmortError",
@@ -40,4 +50,5 @@ __all__ = [
     "Timing",
     "__version__",
     "solve",
+    "write_workbook",
 ]

@@ -30,6 +30,7 @@ from amort.cli_options import (
     Extras,
     FirstPayment,
     Force,
+    Formulas,
     FrequencyOpt,
     Growth,
     GrowthEvery,
@@ -44,6 +45,7 @@ from amort.cli_options import (
     PaymentMonths,
     PaymentOpt,
     Periods,
+    PlotFile,
     Principal,
     Rate,
     Recast,
@@ -86,6 +88,7 @@ from amort.formula_segments import (
     segmented_formula_for,
 )
 from amort.io.csv import write_schedule_csv
+from amort.io.files import check_target
 from amort.money import Rounding, parse_amount, parse_rate
 from amort.payoff import payoff_quote
 from amort.quote import quote_payment, quote_principal, quote_rate, quote_term
@@ -438,7 +441,8 @@ def principal_(
 @app.command(
     epilog=(
         "Examples: amort schedule --principal 18500 --rate 7.9 --years 5 ; "
-        "amort schedule --principal 18500 --rate 7.9 --years 5 --out car.csv"
+        "amort schedule --principal 18500 --rate 7.9 --years 5 --out car.xlsx --formulas "
+        "--plot car.png"
     ),
 )
 def schedule(
@@ -465,6 +469,8 @@ def schedule(
     interest_rounding: InterestRounding = "half-up",
     out_file: OutFile = None,
     force: Force = False,
+    formulas: Formulas = False,
+    plot: PlotFile = None,
     start: Start = None,
     first_payment: FirstPayment = None,
     day_count: DayCountOpt = "equal",
@@ -498,8 +504,10 @@ def schedule(
                     "give the loan in the terms file or as options, not both "
                     "(--principal, --rate, --periods, --years, --payment)"
                 )
-            loan = read_terms(terms).loan
+            terms_file = read_terms(terms)
+            loan, metadata = terms_file.loan, terms_file.metadata
         else:
+            metadata = {}
             freq = Frequency.parse(frequency)
             count = (
                 None
@@ -544,15 +552,39 @@ def schedule(
         frame = loan.schedule()
         figures = quote_payment(loan)
         check = loan.reconciliation()
-        written = None
-        if out_file is not None:
-            if out_file.suffix.lower() != ".csv":
-                raise InvalidTerms(
-                    f"'--out' must name a .csv file in this version (got {str(out_file)!r})"
-                )
+        written = plotted = None
+        kind = None if out_file is None else out_file.suffix.lower()
+        if kind not in (None, ".csv", ".xlsx", ".parquet"):
+            raise InvalidTerms(
+                f"'--out' must name a .csv, .xlsx or .parquet file (got {str(out_file)!r})"
+            )
+        if formulas and kind != ".xlsx":
+            raise InvalidTerms("'--formulas' needs '--out FILE.xlsx' (live spreadsheet formulas)")
+        if plot is not None and plot.suffix.lower() != ".png":
+            raise InvalidTerms(f"'--plot' must name a .png file (got {str(plot)!r})")
+        for target in (out_file, plot):  # refuse before writing either file
+            if target is not None:
+                check_target(target, force=force)
+        if out_file is not None and kind == ".xlsx":
+            from amort.io.xlsx_loan import write_workbook
+
+            written = write_workbook(
+                loan, out_file, formulas=formulas, force=force, metadata=metadata
+            )
+        elif out_file is not None and kind == ".parquet":
+            from amort.io.parquet import write_schedule_parquet
+
+            written = write_schedule_parquet(frame, out_file, force=force, metadata=metadata)
+        elif out_file is not None:
             written = write_schedule_csv(frame, out_file, force=force)
+        if plot is not None:
+            from amort.io.png import plot_loan
+
+            plotted = plot_loan(loan, plot, force=force)
     if as_json:
         payload: dict[str, Any] = {**figures, "reconciliation": check.as_dict()}
+        if plotted is not None:
+            payload["plot"] = str(plotted)
         if written is not None:
             payload["written"] = str(written)
         else:
@@ -575,6 +607,8 @@ def schedule(
     out.print(checks_table(check))
     if written is not None:
         out.print(f"\nwrote {len(frame):,} rows to {written}")
+    if plotted is not None:
+        out.print(f"\ndrew the balance and payments to {plotted}")
     caution()
 
 

@@ -135,7 +135,24 @@ def dated_terms(
 OutFile = Annotated[
     Path | None,
     typer.Option(
-        "--out", help="Write the schedule to FILE.csv (kept if it exists unless --force)."
+        "--out",
+        help="Write the schedule to FILE.csv, FILE.xlsx (a client workbook) or FILE.parquet, "
+        "by its extension (kept if it exists unless --force).",
+    ),
+]
+Formulas = Annotated[
+    bool,
+    typer.Option(
+        "--formulas",
+        help="With --out FILE.xlsx: interest, principal and balances as live spreadsheet "
+        "formulas on the terms cells (the engine's values cached beside them).",
+    ),
+]
+PlotFile = Annotated[
+    Path | None,
+    typer.Option(
+        "--plot",
+        help="Also draw the balance and each payment's interest/principal split to FILE.png.",
     ),
 ]
 StructureOpt = Annotated[

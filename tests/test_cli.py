@@ -194,8 +194,8 @@ BAD_INPUT = [
         3,
     ),
     (
-        ["schedule", "--principal", "1000", "--rate", "5", "--periods", "12", "--out", "x.xlsx"],
-        ".csv",
+        ["schedule", "--principal", "1000", "--rate", "5", "--periods", "12", "--out", "x.txt"],
+        ".csv, .xlsx or .parquet",
         2,
     ),
 ]

@@ -32,6 +32,13 @@ def check_target(path: Path, *, force: bool) -> Path:
     return path
 
 
+def _umask() -> int:
+    """The process's file-creation mask (read by setting it and putting it back)."""
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
 def write_atomic(path: Path, write: Callable[[Path], None], *, force: bool = False) -> Path:
     """Call ``write(tmp)`` on a temporary file beside ``path``, then rename it to ``path``.
 
@@ -49,6 +56,8 @@ def write_atomic(path: Path, write: Callable[[Path], None], *, force: bool = Fal
         write(tmp)
         if path.exists() and not force:  # appeared while we were writing
             raise ExportError(f"{str(path)!r} already exists; pass --force to replace it")
+        # mkstemp makes the file private (0600); give it the mode a new file would get.
+        os.chmod(tmp, 0o666 & ~_umask())
         os.replace(tmp, path)
     except ExportError:
         tmp.unlink(missing_ok=True)
