@@ -59,8 +59,8 @@ from amort.cli_options import (
     build_loan,
     dated_or_none,
     dated_terms,
+    loan_and_metadata,
     loan_from_command,
-    parse_events,
     periods_from,
     require,
 )
@@ -94,7 +94,6 @@ from amort.payoff import payoff_quote
 from amort.quote import quote_payment, quote_principal, quote_rate, quote_term
 from amort.rates import Compounding
 from amort.rebates import rebates_for
-from amort.terms import read_terms
 
 app = typer.Typer(
     name="amort",
@@ -497,58 +496,11 @@ def schedule(
     as_json: AsJson = False,
 ) -> None:
     """One loan's schedule to the cent, with its reconciliation against the closed form."""
+    options = dict(locals())
+    for name in ("terms", "out_file", "force", "formulas", "plot", "as_json"):
+        options.pop(name)
     with errors():
-        if terms is not None:
-            if any(v is not None for v in (principal, rate, periods, years, payment)):
-                raise InvalidTerms(
-                    "give the loan in the terms file or as options, not both "
-                    "(--principal, --rate, --periods, --years, --payment)"
-                )
-            terms_file = read_terms(terms)
-            loan, metadata = terms_file.loan, terms_file.metadata
-        else:
-            metadata = {}
-            freq = Frequency.parse(frequency)
-            count = (
-                None
-                if (payment is not None or custom_payments is not None)
-                and periods is None
-                and years is None
-                else (periods_from(periods, years, freq, "schedule"))
-            )
-            loan = build_loan(
-                principal=principal,
-                rate=rate,
-                periods=count,
-                frequency=freq,
-                payment=payment,
-                balloon=balloon,
-                advance=advance,
-                rounding=rounding,
-                interest_rounding=interest_rounding,
-                verb="schedule",
-                structure=structure,
-                interest_only=interest_only,
-                growth=growth,
-                step=step,
-                growth_every=growth_every,
-                cap=cap,
-                custom_payments=custom_payments,
-                payment_months=payment_months,
-                events=parse_events(extra, recast, holiday, reset, keep_payment),
-                dated=dated_terms(
-                    start,
-                    first_payment,
-                    day_count,
-                    compounding,
-                    business_days,
-                    holidays,
-                    odd_days,
-                    end_of_month,
-                    interest_dates,
-                    semimonthly_days,
-                ),
-            )
+        loan, metadata = loan_and_metadata(terms, "schedule", **options)
         frame = loan.schedule()
         figures = quote_payment(loan)
         check = loan.reconciliation()

@@ -414,6 +414,11 @@ def loan_from_command(terms: Path | None, verb: str, **options: Any) -> Loan:
     ``amort schedule``; a verb may leave some out). Giving both a terms file
     and the loan's own options is refused, so nothing is silently ignored.
     """
+    return loan_and_metadata(terms, verb, **options)[0]
+
+
+def loan_and_metadata(terms: Path | None, verb: str, **options: Any) -> tuple[Loan, dict[str, str]]:
+    """Like :func:`loan_from_command`, with the terms file's metadata (borrower, ...)."""
     from amort.terms import read_terms  # the TOML reader is only needed for files
 
     given = {k: options.get(k) for k in ("principal", "rate", "periods", "years", "payment")}
@@ -423,12 +428,13 @@ def loan_from_command(terms: Path | None, verb: str, **options: Any) -> Loan:
                 "give the loan in the terms file or as options, not both "
                 "(--principal, --rate, --periods, --years, --payment)"
             )
-        return read_terms(terms).loan
+        read = read_terms(terms)
+        return read.loan, dict(read.metadata)
     freq = Frequency.parse(options.get("frequency", "monthly"))
     periods, years, payment = given["periods"], given["years"], given["payment"]
     custom = options.get("custom_payments")
     open_term = (payment is not None or custom is not None) and periods is None and years is None
-    return build_loan(
+    loan = build_loan(
         principal=given["principal"],
         rate=given["rate"],
         periods=None if open_term else periods_from(periods, years, freq, verb),
@@ -467,3 +473,4 @@ def loan_from_command(terms: Path | None, verb: str, **options: Any) -> Loan:
             options.get("semimonthly_days", "1,15"),
         ),
     )
+    return loan, {}

@@ -577,7 +577,8 @@ def _segment_lines(seg: Segment, number: int) -> list[str]:
         rate = seg.constant_rate
         shown = _shown(d.solution, start)
         if rate == 0 and seg.kind not in (INTEREST_ONLY_KIND, EQUAL_PRINCIPAL):
-            shown = "the payments add up (i = 0): " + _plain(seg.balance.subs(_m(), sp.Symbol("m")))
+            assert seg.balance is not None  # one rate: the closed form is built
+            shown = "the payments add up (i = 0): " + _plain(seg.balance)
         if seg.kind == INTEREST_ONLY_KIND:
             shown = f"B_{start}"
         lines.append(f"  closed form  B_n = {shown},  {_local(start)}")
