@@ -10,6 +10,9 @@ Decimal('1580.17')
 from __future__ import annotations
 
 from amort import solve
+from amort.annuity import Payout
+from amort.annuity_accumulation import Accumulation
+from amort.annuity_cents import AnnuityCheck
 from amort.calendar import BusinessDay
 from amort.caution import CAUTION
 from amort.conventions import Frequency, Timing
@@ -34,6 +37,8 @@ def __getattr__(name: str) -> object:
 
 __all__ = [
     "CAUTION",
+    "Accumulation",
+    "AnnuityCheck",
     "AmortError",
     "BusinessDay",
     "Compounding",
@@ -45,6 +50,7 @@ __all__ = [
     "Loan",
     "NoSolution",
     "OddDays",
+    "Payout",
     "Reconciliation",
     "Rounding",
     "Timing",

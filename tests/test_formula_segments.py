@@ -264,20 +264,20 @@ def test_cap_on_listed_payments_against_a_decimal_reference() -> None:
 
 
 def test_cap_needs_a_payment_rule_that_can_fall_short() -> None:
-    with pytest.raises(InvalidTerms, match="graduated payments .* or listed custom_payments"):
+    with pytest.raises(InvalidTerms, match=r"graduated payments .* or listed custom_payments"):
         Loan(**BASE, negative_amortisation_cap="110%")
 
 
 # -- the command line -----------------------------------------------------------------------
 
 runner = CliRunner()
+LOAN_ARGS = ["formula", "--principal", "12000", "--rate", "6", "--periods", "24"]
 
 
 def test_cli_formula_prints_segments_and_the_check() -> None:
     result = runner.invoke(
         app,
-        ["formula", "--principal", "12000", "--rate", "6", "--periods", "24"]
-        + ["--interest-only", "6", "--latex"],
+        [*LOAN_ARGS, "--interest-only", "6", "--latex"],
     )
     assert result.exit_code == 0, result.stderr
     assert "Segment 1: periods 1-6, interest only" in result.stdout
@@ -290,8 +290,7 @@ def test_cli_formula_prints_segments_and_the_check() -> None:
 def test_cli_formula_json_lists_segments() -> None:
     result = runner.invoke(
         app,
-        ["formula", "--principal", "12000", "--rate", "6", "--periods", "24"]
-        + ["--structure", "equal-principal", "--json"],
+        [*LOAN_ARGS, "--structure", "equal-principal", "--json"],
     )
     assert result.exit_code == 0, result.stderr
     data = json.loads(result.stdout)

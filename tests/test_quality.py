@@ -63,6 +63,8 @@ CORE = {
     "dated",
     "compounding",
     "graduated",
+    "annuity_forms",
+    "annuity_cents",
 }
 FORBIDDEN_IN_CORE = {"pandas", "sympy", "openpyxl", "typer", "rich", "amort.cli", "amort.io"}
 
