@@ -13,12 +13,15 @@ from amort import solve
 from amort.annuity import Payout
 from amort.annuity_accumulation import Accumulation
 from amort.annuity_cents import AnnuityCheck
+from amort.apr import Standard
 from amort.calendar import BusinessDay
 from amort.caution import CAUTION
 from amort.conventions import Frequency, Timing
 from amort.dated import InterestDates, OddDays
 from amort.daycount import DayCount
+from amort.disclosure import Disclosure, Fee, disclose, disclose_flows
 from amort.errors import AmortError, ExportError, InvalidTerms, NoSolution
+from amort.flows import Flow, Flows, read_flows
 from amort.loan import Loan, Reconciliation
 from amort.money import Rounding
 from amort.rates import Compounding
@@ -38,12 +41,16 @@ def __getattr__(name: str) -> object:
 __all__ = [
     "CAUTION",
     "Accumulation",
-    "AnnuityCheck",
     "AmortError",
+    "AnnuityCheck",
     "BusinessDay",
     "Compounding",
     "DayCount",
+    "Disclosure",
     "ExportError",
+    "Fee",
+    "Flow",
+    "Flows",
     "Frequency",
     "InterestDates",
     "InvalidTerms",
@@ -53,8 +60,12 @@ __all__ = [
     "Payout",
     "Reconciliation",
     "Rounding",
+    "Standard",
     "Timing",
     "__version__",
+    "disclose",
+    "disclose_flows",
+    "read_flows",
     "solve",
     "write_workbook",
 ]

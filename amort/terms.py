@@ -117,6 +117,23 @@ either ``period`` (a period number) or ``on`` (a date)::
 what is left), ``payment_months`` (a seasonal loan's months, 1 to 12) and
 ``negative_amortisation_cap`` (an amount, or a percent of the principal such
 as ``"110%"``, for graduated payments).
+
+Fees for the disclosure figures (``amort apr``) are ``[[fees]]`` tables, one a
+fee, each with a ``name`` and an ``amount`` (currency units); ``finance_charge``
+(default true) says whether it is a finance charge and ``financed`` (default
+false) whether it is added to the principal instead of paid at closing
+(``at_closing = true`` may say the latter; both at once is refused). See
+:class:`amort.disclosure.Fee`::
+
+    [[fees]]
+    name = "origination"
+    amount = 250
+    financed = true
+
+    [[fees]]
+    name = "appraisal"
+    amount = "400.00"
+    finance_charge = false
 """
 
 from __future__ import annotations
@@ -136,6 +153,7 @@ from typing import Any, NoReturn
 
 from amort import solve
 from amort.conventions import Frequency
+from amort.disclosure import Fee
 from amort.errors import AmortError, InvalidTerms, describe
 from amort.events import Event, ExtraPrincipal, PaymentHoliday, RateReset
 from amort.loan import Loan
@@ -246,6 +264,14 @@ _EVENT_KEYS = {
     "holiday": ("period", "on", "count"),
     "reset": ("period", "on", "rate", "reamortise"),
 }
+# [[fees]]: key -> the kind of value it holds.
+_FEE_KEYS = {
+    "name": "text",
+    "amount": "amount",
+    "finance_charge": "flag",
+    "financed": "flag",
+    "at_closing": "flag",
+}
 # A spreadsheet cell holds at most 32,767 characters (Excel's limit, from memory).
 _TEXT_LIMITS = {"borrower": 200, "reference": 200, "note": 32_767}
 
@@ -258,11 +284,13 @@ class LoanTerms:
     metadata: the ``borrower``, ``reference`` and ``note`` strings the file gives
         (only those it gives), exactly as written; user text, not escaped.
     source: the file read (``Path("<string>")`` for :func:`parse_terms` text).
+    fees: the ``[[fees]]`` of the file, in order (for the disclosure figures).
     """
 
     loan: Loan
     metadata: dict[str, str] = field(default_factory=dict)
     source: Path = Path("<string>")
+    fees: tuple[Fee, ...] = ()
 
 
 def read_terms(path: str | os.PathLike[str]) -> LoanTerms:
@@ -310,7 +338,8 @@ def parse_terms(text: str, *, source: str | os.PathLike[str] = "<string>") -> Lo
     reader.check_layout(data)
     keywords, metadata = reader.loan_keywords(data)
     loan = reader.build(keywords)
-    return LoanTerms(loan=loan, metadata=metadata, source=Path(source))
+    fees = reader.fees(data)
+    return LoanTerms(loan=loan, metadata=metadata, source=Path(source), fees=fees)
 
 
 # -- finding a key's line ------------------------------------------------------------------
@@ -503,6 +532,9 @@ class _Reader:
             if name == "events":
                 self._check_events(value)
                 continue
+            if name == "fees":
+                self._check_fees(value)
+                continue
             if name in _SCHEMA and name:
                 if not isinstance(value, dict):
                     self.fail(f"{name!r} must be a table, [{name}] (got {_show(value)})", name)
@@ -535,6 +567,60 @@ class _Reader:
                     f"event {number} ({kind}): give 'period' or 'on' (a date), one of them",
                     "events",
                 )
+
+    def fee_where(self, number: int, key: str | None = None) -> str:
+        """Return ``"terms.toml line 9"`` for fee ``number``'s ``key`` (or its header)."""
+        count, line = 0, None
+        for path, at in _entries(self.text):
+            if path == ("fees",):
+                count += 1
+                if count == number:
+                    line = at
+            elif count == number and key is not None and path == ("fees", key):
+                line = at
+                break
+        return self.source if line is None else f"{self.source} line {line}"
+
+    def _check_fees(self, value: object) -> None:
+        """``[[fees]]``: each a table with ``name`` and ``amount``, and the flags."""
+        if not isinstance(value, list) or not all(isinstance(v, dict) for v in value):
+            self.fail("'fees' must be [[fees]] tables, one a fee", "fees")
+        for number, fee in enumerate(value, start=1):
+            for key, item in fee.items():
+                kind = _FEE_KEYS.get(key)
+                if kind is None:
+                    near = difflib.get_close_matches(key, list(_FEE_KEYS), n=1)
+                    hint = f"; did you mean {near[0]!r}?" if near else ""
+                    raise InvalidTerms(
+                        f"{self.fee_where(number, key)}: fee {number}: unknown key {key!r}{hint}"
+                    )
+                if not _fits(kind, item):
+                    raise InvalidTerms(
+                        f"{self.fee_where(number, key)}: fee {number}: {key!r} must be "
+                        f"{_RULES[kind]} (got {_show(item)})"
+                    )
+            for needed in ("name", "amount"):
+                if needed not in fee:
+                    raise InvalidTerms(f"{self.fee_where(number)}: fee {number} needs {needed!r}")
+
+    def fees(self, data: dict[str, Any]) -> tuple[Fee, ...]:
+        """Return the fees of ``[[fees]]`` (types checked by :meth:`_check_fees`)."""
+        out: list[Fee] = []
+        seen: dict[str, int] = {}
+        for number, fee in enumerate(data.get("fees", []), start=1):
+            try:
+                made = Fee(**fee)
+            except InvalidTerms as exc:
+                key = "amount" if "'amount'" in str(exc) else None
+                raise InvalidTerms(f"{self.fee_where(number, key)}: {exc}") from None
+            if made.name.lower() in seen:
+                raise InvalidTerms(
+                    f"{self.fee_where(number, 'name')}: fee {number}: the name {made.name!r} is "
+                    f"already used by fee {seen[made.name.lower()]}"
+                )
+            seen[made.name.lower()] = number
+            out.append(made)
+        return tuple(out)
 
     def events(self, data: dict[str, Any]) -> tuple[Any, ...]:
         """Return the events of ``[[events]]`` (their types checked by the event classes)."""

@@ -65,6 +65,8 @@ CORE = {
     "graduated",
     "annuity_forms",
     "annuity_cents",
+    "apr",
+    "flows",
 }
 FORBIDDEN_IN_CORE = {"pandas", "sympy", "openpyxl", "typer", "rich", "amort.cli", "amort.io"}
 

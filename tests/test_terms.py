@@ -846,3 +846,63 @@ def test_structure_table_takes_listed_payments_months_and_a_cap() -> None:
             "payments = [500, true]\n",
             source="terms.toml",
         )
+
+
+# -- [[fees]] (for amort apr) --------------------------------------------------------------------
+
+
+def test_fees_are_read_in_order_with_their_marks() -> None:
+    read = parse_terms(
+        terms(
+            PLAIN
+            + """
+            [[fees]]
+            name = "origination"
+            amount = 250
+            financed = true
+
+            [[fees]]
+            name = "appraisal"
+            amount = "400.00"
+            finance_charge = false
+            """
+        )
+    )
+    assert [(f.name, f.amount, f.finance_charge, f.financed) for f in read.fees] == [
+        ("origination", Decimal(250), True, True),
+        ("appraisal", Decimal("400.00"), False, False),
+    ]
+    assert parse_terms(terms(PLAIN)).fees == ()
+
+
+@pytest.mark.parametrize(
+    ("fees", "message"),
+    [
+        ('[[fees]]\nname = "a"\namount = -1\n', "terms.toml line 9: fee 'a': 'amount' must be > 0"),
+        ('[[fees]]\nname = "a"\n', "terms.toml line 7: fee 1 needs 'amount'"),
+        (
+            '[[fees]]\nname = "a"\namount = 1\n[[fees]]\nname = "b"\nammount = 2\n',
+            "terms.toml line 12: fee 2: unknown key 'ammount'; did you mean 'amount'?",
+        ),
+        (
+            '[[fees]]\nname = "a"\namount = 1\nfinanced = "yes"\n',
+            "terms.toml line 10: fee 1: 'financed' must be true or false (got 'yes')",
+        ),
+        (
+            '[[fees]]\nname = "a"\namount = 1\nfinanced = true\nat_closing = true\n',
+            "terms.toml line 7: fee 'a' is marked both financed and paid at closing",
+        ),
+        (
+            '[[fees]]\nname = "a"\namount = 1\n[[fees]]\nname = "A"\namount = 2\n',
+            "terms.toml line 11: fee 2: the name 'A' is already used by fee 1",
+        ),
+    ],
+)
+def test_fee_errors_name_the_line(fees: str, message: str) -> None:
+    # PLAIN ends on line 6, so the first [[fees]] header is line 7.
+    assert message in refusal(terms(PLAIN) + fees)
+
+
+def test_fees_must_be_an_array_of_tables() -> None:
+    message = refusal("format = 1\nfees = 5\n" + textwrap.dedent(PLAIN))
+    assert "terms.toml line 2: 'fees' must be [[fees]] tables, one a fee" in message
