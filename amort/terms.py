@@ -158,6 +158,7 @@ from amort.errors import AmortError, InvalidTerms, describe
 from amort.events import Event, ExtraPrincipal, PaymentHoliday, RateReset
 from amort.loan import Loan
 from amort.money import parse_number, parse_rate
+from amort.toml_lines import entries, first_repeat, key_line
 
 __all__ = ["FORMAT_VERSION", "LoanTerms", "key_line", "parse_terms", "read_terms"]
 
@@ -342,112 +343,6 @@ def parse_terms(text: str, *, source: str | os.PathLike[str] = "<string>") -> Lo
     return LoanTerms(loan=loan, metadata=metadata, source=Path(source), fees=fees)
 
 
-# -- finding a key's line ------------------------------------------------------------------
-
-_BARE = r"[A-Za-z0-9_-]+"
-_PART = rf"(?:{_BARE}|\"(?:[^\"\\]|\\.)*\"|'[^']*')"
-_PATH = rf"{_PART}(?:\s*\.\s*{_PART})*"
-_KEY_RE = re.compile(rf"\s*({_PATH})\s*=")
-_HEADER_RE = re.compile(rf"\s*(\[\[?)\s*({_PATH})\s*\]")
-_PART_RE = re.compile(_PART)
-
-
-def _path_of(dotted: str) -> tuple[str, ...]:
-    parts = []
-    for part in _PART_RE.findall(dotted):
-        if part[:1] == '"':
-            part = part[1:-1].encode("latin-1", "backslashreplace").decode("unicode_escape")
-        elif part[:1] == "'":
-            part = part[1:-1]
-        parts.append(part)
-    return tuple(parts)
-
-
-def _string_state(line: str, start: int, state: str | None) -> str | None:
-    """Return the multi-line string delimiter open at the end of ``line`` (or None)."""
-    i = start
-    while i < len(line):
-        if state is not None:
-            end = line.find(state, i)
-            while state == '"""' and end > 0 and _escaped(line, end):
-                end = line.find(state, end + 1)
-            if end < 0:
-                return state
-            i, state = end + 3, None
-            continue
-        char = line[i]
-        if char == "#":
-            return None
-        if line.startswith('"""', i) or line.startswith("'''", i):
-            state, i = line[i : i + 3], i + 3
-        elif char in "\"'":
-            end = line.find(char, i + 1)
-            while char == '"' and end > 0 and _escaped(line, end):
-                end = line.find(char, end + 1)
-            i = len(line) if end < 0 else end + 1
-        else:
-            i += 1
-    return state
-
-
-def _escaped(line: str, at: int) -> bool:
-    """True when the character at ``at`` follows an odd number of backslashes."""
-    count = 0
-    while at - count - 1 >= 0 and line[at - count - 1] == "\\":
-        count += 1
-    return count % 2 == 1
-
-
-def _entries(text: str) -> Iterator[tuple[tuple[str, ...], int]]:
-    """Yield the full dotted path of every table header and key, with its line (from 1)."""
-    table: tuple[str, ...] = ()
-    state: str | None = None
-    for number, line in enumerate(text.splitlines(), start=1):
-        if state is not None:
-            state = _string_state(line, 0, state)
-            continue
-        header = _HEADER_RE.match(line)
-        if header:
-            table = _path_of(header.group(2))
-            yield table, number
-            continue
-        key = _KEY_RE.match(line)
-        if key:
-            yield (*table, *_path_of(key.group(1))), number
-            state = _string_state(line, key.end(), None)
-        else:
-            state = _string_state(line, 0, None)
-
-
-def key_line(text: str, *path: str) -> int | None:
-    """Return the line (from 1) where TOML ``text`` sets ``path``, or None.
-
-    ``key_line(text, "loan", "principal")`` finds ``principal = ...`` under a
-    ``[loan]`` header (or ``loan.principal = ...`` at the top);
-    ``key_line(text, "loan")`` finds the ``[loan]`` header; ``key_line(text,
-    "format")`` a top-level key. Lines inside multi-line strings and comments
-    are not keys. A key inside an inline table (``loan = {principal = 1}``) is
-    not found; its table's line is.
-
-    >>> key_line('format = 1\\n\\n[loan]\\nprincipal = 1\\n', "loan", "principal")
-    4
-    """
-    for found, number in _entries(text):
-        if found == path:
-            return number
-    return None
-
-
-def _first_repeat(text: str) -> int | None:
-    """Return the line of the first key or header set twice (tomllib gives none for it)."""
-    seen: set[tuple[str, ...]] = set()
-    for found, number in _entries(text):
-        if found in seen:
-            return number
-        seen.add(found)
-    return None
-
-
 # -- reading -------------------------------------------------------------------------------
 
 _POSITION = re.compile(r"\s*\(at line (\d+), column (\d+)\)$")
@@ -499,7 +394,7 @@ class _Reader:
                     f"{self.source} line {line}, column {column}: {message} (not valid TOML)"
                 ) from None
             message = message.replace(" (at end of document)", "")
-            repeat = _first_repeat(self.text) if message.startswith("Cannot overwrite") else None
+            repeat = first_repeat(self.text) if message.startswith("Cannot overwrite") else None
             where = self.source if repeat is None else f"{self.source} line {repeat}"
             ending = "" if repeat is not None else " at the end of the file"
             raise InvalidTerms(f"{where}: {message}{ending} (not valid TOML)") from None
@@ -571,7 +466,7 @@ class _Reader:
     def fee_where(self, number: int, key: str | None = None) -> str:
         """Return ``"terms.toml line 9"`` for fee ``number``'s ``key`` (or its header)."""
         count, line = 0, None
-        for path, at in _entries(self.text):
+        for path, at in entries(self.text):
             if path == ("fees",):
                 count += 1
                 if count == number:

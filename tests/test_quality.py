@@ -67,6 +67,7 @@ CORE = {
     "annuity_cents",
     "apr",
     "flows",
+    "toml_lines",
 }
 FORBIDDEN_IN_CORE = {"pandas", "sympy", "openpyxl", "typer", "rich", "amort.cli", "amort.io"}
 
