@@ -35,6 +35,14 @@ def __getattr__(name: str) -> object:
         from amort.io.xlsx_loan import write_workbook
 
         return write_workbook
+    if name == "write_annuity_workbook":
+        from amort.io.xlsx_annuity import write_annuity_workbook
+
+        return write_annuity_workbook
+    if name == "write_disclosure_workbook":
+        from amort.io.xlsx_disclosure import write_disclosure_workbook
+
+        return write_disclosure_workbook
     raise AttributeError(f"module 'amort' has no attribute {name!r}")
 
 
@@ -67,5 +75,7 @@ __all__ = [
     "disclose_flows",
     "read_flows",
     "solve",
+    "write_annuity_workbook",
+    "write_disclosure_workbook",
     "write_workbook",
 ]

@@ -2,7 +2,9 @@
 
 Each verb solves for whichever of its four figures is left out (exactly
 one), prints the terms, the figures, the schedule and its reconciliation
-(or ``--json``), and can write the schedule with ``--out FILE.csv``.
+(or ``--json``), and can write the schedule with ``--out FILE.csv``, a client
+workbook with ``--out FILE.xlsx`` (:mod:`amort.io.xlsx_annuity`), the frame
+with ``--out FILE.parquet``, and a picture with ``--plot FILE.png``.
 Amounts are in currency units; rates and growth in percent (``4`` or
 ``4%``): the rate a year, the growth a step of ``--growth-every`` payments
 (default a year of them, so ``--growth 2`` is +2 % a year).
@@ -45,7 +47,7 @@ from amort.cli_output import (
 from amort.conventions import Frequency, Structure, Timing
 from amort.errors import InvalidTerms
 from amort.io.csv import MONEY_COLUMNS, schedule_csv_text
-from amort.io.files import write_text_atomic
+from amort.io.files import check_target, write_text_atomic
 from amort.loan import AnnualRate, Loan
 from amort.money import parse_amount, parse_rate
 
@@ -116,6 +118,15 @@ LoanRate = Annotated[
 ]
 
 
+AnnuityPlot = Annotated[
+    Path | None,
+    typer.Option(
+        "--plot",
+        help="Also draw the value over time and each period's interest split to FILE.png.",
+    ),
+]
+
+
 def register(app: typer.Typer) -> None:
     """Add the ``annuity`` verbs to the ``amort`` app."""
     app.add_typer(annuity_app, name="annuity")
@@ -142,9 +153,37 @@ def _percent_growth(growth: str | None) -> Any:
     return None if growth is None else parse_growth(growth, percent=True)
 
 
-def _write(frame: pd.DataFrame, path: Path, force: bool) -> Path:
-    if path.suffix.lower() != ".csv":
-        raise InvalidTerms(f"'--out' must name a .csv file in this version (got {str(path)!r})")
+def _check_targets(out_file: Path | None, plot: Path | None, force: bool) -> None:
+    """Refuse a wrong extension or an existing file before anything is written."""
+    if out_file is not None and out_file.suffix.lower() not in (".csv", ".xlsx", ".parquet"):
+        raise InvalidTerms(
+            "'--out' must name a .csv file, an .xlsx workbook or a .parquet file "
+            f"(got {str(out_file)!r})"
+        )
+    if plot is not None and plot.suffix.lower() != ".png":
+        raise InvalidTerms(f"'--plot' must name a .png file (got {str(plot)!r})")
+    for target in (out_file, plot):
+        if target is not None:
+            check_target(target, force=force)
+
+
+def _write(
+    product: Payout | Accumulation,
+    frame: pd.DataFrame,
+    path: Path,
+    force: bool,
+    rows: int | None = None,
+) -> Path:
+    kind = path.suffix.lower()
+    if kind == ".xlsx":
+        from amort.io.xlsx_annuity import write_annuity_workbook
+
+        return write_annuity_workbook(product, path, force=force, rows=rows)
+    if kind == ".parquet":
+        from amort.io.parquet import write_schedule_parquet
+
+        about = {"product": type(product).__name__.lower(), "solved_for": str(product.solve_for)}
+        return write_schedule_parquet(frame, path, force=force, metadata=about)
     shown = frame.copy()
     for column in shown.columns:
         # Money to two decimals, as the CSV writer does for the loan columns it knows.
@@ -153,10 +192,22 @@ def _write(frame: pd.DataFrame, path: Path, force: bool) -> Path:
     return write_text_atomic(path, schedule_csv_text(shown), force=force)
 
 
+def _plot(product: Payout | Accumulation, path: Path, force: bool, rows: int | None) -> Path:
+    from amort.io.png import plot_annuity
+
+    return plot_annuity(product, path, force=force, rows=rows)
+
+
 def _payload(
-    summary: dict[str, Any], check: Any, frame: pd.DataFrame, written: Path | None
+    summary: dict[str, Any],
+    check: Any,
+    frame: pd.DataFrame,
+    written: Path | None,
+    plotted: Path | None = None,
 ) -> dict[str, Any]:
     payload: dict[str, Any] = {**summary, "reconciliation": check.as_dict()}
+    if plotted is not None:
+        payload["plot"] = str(plotted)
     if written is not None:
         payload["written"] = str(written)
         return payload
@@ -167,6 +218,13 @@ def _payload(
         shown = shown.drop(columns=["due_date"])
     payload["schedule"] = shown.to_dict(orient="records")
     return payload
+
+
+def _say_written(rows: int, written: Path | None, plotted: Path | None) -> None:
+    if written is not None:
+        out.print(f"\nwrote {rows:,} rows to {written}")
+    if plotted is not None:
+        out.print(f"\ndrew the value and each period's interest split to {plotted}")
 
 
 def _rate_text(rate: Any) -> str:
@@ -213,10 +271,12 @@ def payout(
     rows: Rows = None,
     as_json: AsJson = False,
     out_file: OutFile = None,
+    plot: AnnuityPlot = None,
     force: Force = False,
 ) -> None:
     """A fund paid out level or growing: solve the payment, horizon, fund or rate left out."""
     with errors():
+        _check_targets(out_file, plot, force)
         freq = Frequency.parse(frequency)
         count = _count(periods, years, freq)
         if perpetuity and count is not None:
@@ -252,9 +312,10 @@ def payout(
         frame = product.schedule(rows)
         summary = product.summary()
         check = product.reconciliation(rows)
-        written = None if out_file is None else _write(frame, out_file, force)
+        written = None if out_file is None else _write(product, frame, out_file, force, rows)
+        plotted = None if plot is None else _plot(product, plot, force, rows)
     if as_json:
-        emit_json(_payload(summary, check, frame, written))
+        emit_json(_payload(summary, check, frame, written, plotted))
         return
     if written is None:
         print_whole(schedule_table(frame))
@@ -295,8 +356,7 @@ def payout(
     out.print(figures_table("Figures", figures))
     out.print()
     out.print(checks_table(check))
-    if written is not None:
-        out.print(f"\nwrote {len(frame):,} rows to {written}")
+    _say_written(len(frame), written, plotted)
     caution()
 
 
@@ -325,10 +385,12 @@ def accumulate(
     interest_rounding: InterestRounding = "half-up",
     as_json: AsJson = False,
     out_file: OutFile = None,
+    plot: AnnuityPlot = None,
     force: Force = False,
 ) -> None:
     """Deposits towards a target: solve the deposit, the number of deposits, target or rate."""
     with errors():
+        _check_targets(out_file, plot, force)
         freq = Frequency.parse(frequency)
         count = _count(periods, years, freq)
         _one_missing(
@@ -379,9 +441,10 @@ def accumulate(
         frame = product.schedule()
         summary = product.summary()
         check = product.reconciliation()
-        written = None if out_file is None else _write(frame, out_file, force)
+        written = None if out_file is None else _write(product, frame, out_file, force)
+        plotted = None if plot is None else _plot(product, plot, force, None)
     if as_json:
-        emit_json(_payload(summary, check, frame, written))
+        emit_json(_payload(summary, check, frame, written, plotted))
         return
     if written is None:
         print_whole(schedule_table(frame))
@@ -422,6 +485,5 @@ def accumulate(
     out.print(figures_table("Figures", figures))
     out.print()
     out.print(checks_table(check))
-    if written is not None:
-        out.print(f"\nwrote {len(frame):,} rows to {written}")
+    _say_written(len(frame), written, plotted)
     caution()

@@ -1,5 +1,8 @@
 """The ``amort apr`` verb: disclosure figures (APR or APRC, finance charge, amount financed,
-total of payments, payment schedule). Parse, call :mod:`amort.disclosure`, print."""
+total of payments, payment schedule). Parse, call :mod:`amort.disclosure`, print.
+
+``--out FILE.csv`` writes the flows behind the rate; ``--out FILE.xlsx`` a disclosure
+workbook (:mod:`amort.io.xlsx_disclosure`)."""
 
 from __future__ import annotations
 
@@ -55,7 +58,7 @@ from amort.conventions import Frequency
 from amort.disclosure import Disclosure, Fee, disclose, disclose_flows
 from amort.errors import InvalidTerms
 from amort.flows import FlowKind, Flows, read_flows
-from amort.io.files import write_text_atomic
+from amort.io.files import check_target, write_text_atomic
 from amort.terms import read_terms
 
 FEE_HELP = (
@@ -112,7 +115,10 @@ FlowsFile = Annotated[
 AuditFile = Annotated[
     Path | None,
     typer.Option(
-        "--out", help="Also write the flows behind the rate to FILE.csv (kept unless --force)."
+        "--out",
+        help="Also write the flows behind the rate to FILE.csv, or a disclosure workbook "
+        "(figures, fees, how the rate was found, flows, schedule) to FILE.xlsx "
+        "(kept unless --force).",
     ),
 ]
 
@@ -216,7 +222,15 @@ def apr(
         chosen = Standard.parse(standard, "--standard")
         options = {"standard": chosen, "decimals": decimals, **_choice_for(chosen, method, eu_year)}
         fees = [parse_fee(text) for text in fee or []]
+        if out_file is not None:  # refuse a wrong name or an existing file before computing
+            if out_file.suffix.lower() not in (".csv", ".xlsx"):
+                raise InvalidTerms(
+                    "'--out' must name a .csv file (the flows) or an .xlsx workbook "
+                    f"(got {str(out_file)!r})"
+                )
+            check_target(out_file, force=force)
         given = (principal, rate, periods, years, payment, custom_payments)
+        metadata: dict[str, str] = {}
         loan = None
         listed: Flows | None = None
         if flows is not None:
@@ -234,7 +248,7 @@ def apr(
                         "(--principal, --rate, --periods, --years, --payment, --payments)"
                     )
                 read = read_terms(terms)
-                loan, fees = read.loan, [*read.fees, *fees]
+                loan, fees, metadata = read.loan, [*read.fees, *fees], dict(read.metadata)
             else:
                 freq = Frequency.parse(frequency)
                 open_term = (payment is not None or custom_payments is not None) and (
@@ -275,9 +289,13 @@ def apr(
                 )
             figures = disclose(loan, fees=fees, **options)
         written = None
-        if out_file is not None:
-            if out_file.suffix.lower() != ".csv":
-                raise InvalidTerms(f"'--out' must name a .csv file (got {str(out_file)!r})")
+        if out_file is not None and out_file.suffix.lower() == ".xlsx":
+            from amort.io.xlsx_disclosure import write_disclosure_workbook
+
+            written = write_disclosure_workbook(
+                figures, out_file, loan=loan, flows=listed, metadata=metadata, force=force
+            )
+        elif out_file is not None:
             written = write_text_atomic(out_file, figures.csv_text(), force=force)
     if as_json:
         payload = figures.as_dict()
@@ -291,7 +309,9 @@ def apr(
         out.print(figures_table("Flows", _flows_rows(listed, flows)))
     out.print()
     _print_figures(figures)
-    if written is not None:
+    if written is not None and written.suffix.lower() == ".xlsx":
+        out.print(f"\nwrote the disclosure workbook to {written}")
+    elif written is not None:
         out.print(f"\nwrote {len(figures.apr.flows):,} flows to {written}")
     caution()
 

@@ -151,7 +151,11 @@ def test_out_writes_the_flows_behind_the_rate(tmp_path: Path) -> None:
         ((*LOAN, "--standard", "eu-ccd", "--method", "us-rule"), 2, "'--method' applies"),
         ((*LOAN, "--eu-year", "weeks"), 2, "'--eu-year' applies"),
         ((*LOAN, "--decimals", "12"), 2, "'decimals' must be a whole number"),
-        ((*LOAN, "--out", "x.xlsx"), 2, "'--out' must name a .csv file"),
+        (
+            (*LOAN, "--out", "x.pdf"),
+            2,
+            "'--out' must name a .csv file (the flows) or an .xlsx workbook",
+        ),
         (("apr", "--rate", "5", "--periods", "12"), 2, "'--principal' is required"),
         (("apr", "--flows", "missing.csv"), 2, "no such flows file"),
         (("apr", "--flows", "x.csv", "--principal", "1000"), 2, "not both"),

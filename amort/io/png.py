@@ -7,14 +7,17 @@ columns ``closing_balance``, ``interest`` and ``principal`` (and uses
 ``period``, ``opening_balance`` and ``due_date`` where present). Long
 schedules are drawn with one bar for each group of payments (the axis says
 how many), so bars stay readable. :func:`plot_loan` adds a title that states
-one loan's terms. Every picture carries the caution in small type at its foot,
-and is written whole or not at all (:func:`amort.io.files.write_atomic`).
+one loan's terms; :func:`plot_annuity` draws a payout's or an accumulation's
+value and each payment's or deposit's parts, titled with its terms. Every
+picture carries the caution in small type at its foot, and is written whole
+or not at all (:func:`amort.io.files.write_atomic`).
 """
 
 from __future__ import annotations
 
 import math
 import textwrap
+from collections.abc import Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -27,6 +30,8 @@ from amort.io.files import write_atomic
 from amort.io.xlsx import ACCENT, LIGHT_GREY
 
 if TYPE_CHECKING:
+    from amort.annuity import Payout
+    from amort.annuity_accumulation import Accumulation
     from amort.loan import Loan
 
 #: Default picture size in pixels (width, height) and its resolution.
@@ -35,7 +40,10 @@ DPI = 100
 #: Above this many rows, bars are grouped so that about :data:`MAX_BARS` are drawn.
 MAX_BARS = 400
 
-_NEEDED = ("closing_balance", "interest", "principal")
+#: The columns a loan's picture draws: the balance, then the two stacked parts of a payment.
+LOAN_COLUMNS = ("closing_balance", "principal", "interest")
+#: What a loan's picture calls them.
+LOAN_LABELS = ("balance", "principal", "interest")
 _ACCENT, _GREY = f"#{ACCENT}", f"#{LIGHT_GREY}"
 
 
@@ -48,6 +56,9 @@ def plot_schedule(
     size: tuple[int, int] = SIZE,
     dpi: int = DPI,
     amount_label: str = "currency units",
+    columns: Sequence[str] = LOAN_COLUMNS,
+    labels: Sequence[str] | None = None,
+    per: str = "payment",
 ) -> Path:
     """Draw ``frame``'s balance curve and interest/principal bars to ``path`` (.png).
 
@@ -56,6 +67,14 @@ def plot_schedule(
     title: the first line of the picture; say the terms in it.
     size: width and height in pixels (the file has exactly this size).
     amount_label: the unit shown on the money axes.
+    columns: the balance column, then the lower and the upper stacked part of
+        each bar (default :data:`LOAN_COLUMNS`; an annuity passes its own).
+        The opening value is drawn from ``opening_<name>`` when the balance
+        column is ``closing_<name>``.
+    labels: the names shown for those three (default :data:`LOAN_LABELS` for
+        the loan columns, else the column names, spaced).
+    per: what one row is (``"payment"``, ``"period"``): the horizontal axis is
+        its number, and the bars' axis says the amount per one (or per group).
 
     An existing file is kept unless ``force``.
 
@@ -69,7 +88,9 @@ def plot_schedule(
     path = Path(path)
     if path.suffix.lower() != ".png":
         raise ExportError(f"'--plot' must name a .png file (got {str(path)!r})")
-    missing = [c for c in _NEEDED if c not in frame.columns]
+    if len(columns) != 3:
+        raise ExportError(f"'columns' must name a balance and two parts (got {list(columns)!r})")
+    missing = [c for c in columns if c not in frame.columns]
     if missing:
         raise ExportError(f"cannot draw the schedule: it has no {', '.join(missing)} column")
     if len(frame) == 0:
@@ -77,7 +98,11 @@ def plot_schedule(
     width, height = size
     if not (200 <= width <= 8000 and 200 <= height <= 8000):
         raise ExportError(f"'size' must be 200 to 8000 pixels each way (got {width}x{height})")
-    figure = _figure(frame, title, width / dpi, height / dpi, amount_label)
+    if labels is None:
+        same = tuple(columns) == LOAN_COLUMNS
+        labels = LOAN_LABELS if same else tuple(c.replace("_", " ") for c in columns)
+    shown = tuple(labels)
+    figure = _figure(frame, title, (width / dpi, height / dpi), amount_label, columns, shown, per)
 
     def write(tmp: Path) -> None:
         figure.savefig(tmp, format="png", dpi=dpi)
@@ -112,20 +137,64 @@ def loan_title(loan: Loan) -> str:
     return text
 
 
-def _figure(frame: pd.DataFrame, title: str, width: float, height: float, unit: str) -> Any:
+def plot_annuity(
+    product: Payout | Accumulation,
+    path: Path,
+    *,
+    force: bool = False,
+    size: tuple[int, int] = SIZE,
+    rows: int | None = None,
+) -> Path:
+    """Draw an annuity's value over time and each period's parts to ``path`` (.png).
+
+    A payout's bars split each payment into the interest credited that period
+    and the part drawn from the fund (``opening_value - closing_value``, below
+    zero while the fund grows); an accumulation's stack each deposit and the
+    interest credited, the period's growth of the value. The title states the
+    terms (:func:`amort.io.annuity_text.annuity_title`). ``rows``: the payments
+    of a perpetuity to draw (default one year's).
+    """
+    from amort.annuity import Payout
+    from amort.io.annuity_text import annuity_title, chart_parts
+
+    frame = product.schedule(rows) if isinstance(product, Payout) else product.schedule()
+    parts, columns, labels = chart_parts(frame)
+    return plot_schedule(
+        parts,
+        path,
+        title=annuity_title(product),
+        force=force,
+        size=size,
+        columns=columns,
+        labels=labels,
+        per="period",
+    )
+
+
+def _figure(
+    frame: pd.DataFrame,
+    title: str,
+    inches: tuple[float, float],
+    unit: str,
+    columns: Sequence[str],
+    labels: Sequence[str],
+    per: str,
+) -> Any:
     from matplotlib.figure import Figure  # no pyplot: no global state, no GUI backend
     from matplotlib.ticker import FuncFormatter, MaxNLocator
 
+    width, height = inches
+    balance, lower, upper = columns
+    balance_label, lower_label, upper_label = labels
+    opening_column = "opening_" + balance.removeprefix("closing_")
     rows = len(frame)
     period = (
         frame["period"].to_numpy(dtype=np.float64)
         if "period" in frame.columns
         else np.arange(1, rows + 1, dtype=np.float64)
     )
-    closing = frame["closing_balance"].to_numpy(dtype=np.float64)
-    opening = (
-        float(frame["opening_balance"].iloc[0]) if "opening_balance" in frame.columns else None
-    )
+    closing = frame[balance].to_numpy(dtype=np.float64)
+    opening = float(frame[opening_column].iloc[0]) if opening_column in frame.columns else None
     figure = Figure(figsize=(width, height), layout="constrained")
     top, bottom = figure.subplots(2, 1, sharex=True, height_ratios=(3, 2))
     xs, ys = period, closing
@@ -134,27 +203,27 @@ def _figure(frame: pd.DataFrame, title: str, width: float, height: float, unit: 
         ys = np.concatenate([[opening], closing])
     top.plot(xs, ys, color=_ACCENT, linewidth=2.2)
     top.fill_between(xs, ys, color=_ACCENT, alpha=0.08, linewidth=0)
-    top.set_ylabel(f"balance ({unit})")
+    top.set_ylabel(f"{balance_label} ({unit})")
     top.set_ylim(bottom=min(0.0, float(np.nanmin(ys))))
     top.grid(True, color="#E6E6E6", linewidth=0.8)
 
     group = max(1, math.ceil(rows / MAX_BARS))
-    interest = frame["interest"].to_numpy(dtype=np.float64)
-    principal = frame["principal"].to_numpy(dtype=np.float64)
+    interest = frame[upper].to_numpy(dtype=np.float64)
+    principal = frame[lower].to_numpy(dtype=np.float64)
     if group > 1:
         cut = np.arange(0, rows, group)
         interest = np.add.reduceat(interest, cut)
         principal = np.add.reduceat(principal, cut)
         centres = np.add.reduceat(period, cut) / np.diff(np.append(cut, rows))
-        label = f"amount per {group} payments ({unit})"
+        label = f"amount per {group} {per}s ({unit})"
     else:
-        centres, label = period, f"amount per payment ({unit})"
+        centres, label = period, f"amount per {per} ({unit})"
     # Gaps between bars only while they are few; many thin gaps alias into stripes.
     width_bar = group * (0.8 if len(centres) <= 80 else 1.0)
     lifted = np.maximum(principal, 0)
     if len(centres) <= 80:
         bottom.bar(
-            centres, principal, width=width_bar, color=_ACCENT, linewidth=0, label="principal"
+            centres, principal, width=width_bar, color=_ACCENT, linewidth=0, label=lower_label
         )
         bottom.bar(
             centres,
@@ -163,13 +232,13 @@ def _figure(frame: pd.DataFrame, title: str, width: float, height: float, unit: 
             bottom=lifted,
             color=_GREY,
             linewidth=0,
-            label="interest",
+            label=upper_label,
         )
     else:
         # Touching bars drawn as two filled step outlines: the same picture, two shapes
         # instead of thousands of rectangles (a 360-row schedule draws ~15x faster).
         edges = np.append(centres - width_bar / 2, centres[-1] + width_bar / 2)
-        bottom.stairs(principal, edges, fill=True, color=_ACCENT, linewidth=0, label="principal")
+        bottom.stairs(principal, edges, fill=True, color=_ACCENT, linewidth=0, label=lower_label)
         bottom.stairs(
             lifted + interest,
             edges,
@@ -177,12 +246,12 @@ def _figure(frame: pd.DataFrame, title: str, width: float, height: float, unit: 
             fill=True,
             color=_GREY,
             linewidth=0,
-            label="interest",
+            label=upper_label,
         )
     stacked = np.maximum(principal, 0) + np.maximum(interest, 0)
     bottom.set_ylim(top=max(1.0, float(np.nanmax(stacked))) * 1.18)  # room for the legend
     bottom.set_ylabel(label)
-    bottom.set_xlabel("payment number")
+    bottom.set_xlabel(f"{per} number")
     bottom.legend(loc="upper left", frameon=False, ncols=2)
     bottom.grid(True, axis="y", color="#E6E6E6", linewidth=0.8)
     money = FuncFormatter(lambda value, _pos: f"{value:,.0f}")
