@@ -55,7 +55,7 @@ from amort.cli_options import (
 )
 from amort.cli_output import caution, emit_json, errors, figures_table, money, out, terms_rows
 from amort.conventions import Frequency
-from amort.disclosure import Disclosure, Fee, disclose, disclose_flows
+from amort.disclosure import WORDS, Disclosure, Fee, disclose, disclose_flows
 from amort.errors import InvalidTerms
 from amort.flows import FlowKind, Flows, read_flows
 from amort.io.files import check_target, write_text_atomic
@@ -330,36 +330,20 @@ def _percent(value: float, places: int = 6) -> str:
     return f"{value:.{places}f} %"
 
 
-_US_WORDS = (
-    "finance charge",
-    "amount financed",
-    "total of payments",
-    "prepaid finance charge (fees)",
-)
-_EU_WORDS = (
-    "total cost of credit",
-    "credit advanced, net of charges",
-    "total of repayments",
-    "charges paid at the start",
-)
-
-
 def _print_figures(figures: Disclosure) -> None:
     rate = figures.apr
     us = figures.standard is Standard.US_REGZ
-    title = "Disclosure (US Regulation Z)" if us else "Disclosure (EU Directive 2008/48/EC)"
-    name = "annual percentage rate (APR)" if us else "annual percentage rate of charge (APRC)"
-    # The EU figures are the same sums under the Directive's words ("total cost of credit").
-    words = _US_WORDS if us else _EU_WORDS
+    words = WORDS[figures.standard]
+    title = words["title"]
     rows = [
-        (name, f"{rate.apr} %"),
-        (words[0], money(figures.finance_charge)),
-        (words[1], money(figures.amount_financed)),
-        (words[2], money(figures.total_of_payments)),
+        (words["rate"], f"{rate.apr} %"),
+        (words["finance_charge"], money(figures.finance_charge)),
+        (words["amount_financed"], money(figures.amount_financed)),
+        (words["total_of_payments"], money(figures.total_of_payments)),
         ("interest", money(figures.interest)),
     ]
     if figures.prepaid_finance_charge:
-        rows.append((words[3], money(figures.prepaid_finance_charge)))
+        rows.append((words["prepaid"], money(figures.prepaid_finance_charge)))
     if any(fee.financed for fee in figures.fees):
         rows.append(("note amount (principal + financed fees)", money(figures.note_amount)))
     out.print(figures_table(title, rows))

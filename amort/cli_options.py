@@ -226,7 +226,9 @@ Cap = Annotated[
         "amount or percent of the principal (e.g. 110%); then a level payment amortises it.",
     ),
 ]
-Force = Annotated[bool, typer.Option("--force", help="Replace an existing --out file.")]
+Force = Annotated[
+    bool, typer.Option("--force", help="Replace existing output files (--out, --plot).")
+]
 
 
 # -- parsing helpers (strings in, library values out) ----------------------------------------

@@ -74,6 +74,31 @@ __all__ = ["Disclosure", "Fee", "PaymentRun", "disclose", "disclose_flows", "rat
 
 _NAME_LIMIT = 100
 
+#: The figures' names under each standard: the same sums, in the regulation's own words
+#: (the EU Directive says "total cost of credit" where Regulation Z says "finance charge").
+WORDS = {
+    Standard.US_REGZ: {
+        "title": "Disclosure (US Regulation Z)",
+        "rate": "annual percentage rate (APR)",
+        "finance_charge": "finance charge",
+        "amount_financed": "amount financed",
+        "total_of_payments": "total of payments",
+        "prepaid": "prepaid finance charge (fees)",
+        "in_charge": "finance charge",
+        "closing": "at closing",
+    },
+    Standard.EU_CCD: {
+        "title": "Disclosure (EU Directive 2008/48/EC)",
+        "rate": "annual percentage rate of charge (APRC)",
+        "finance_charge": "total cost of credit",
+        "amount_financed": "credit advanced, net of charges",
+        "total_of_payments": "total of repayments",
+        "prepaid": "charges paid at the start",
+        "in_charge": "in the cost of credit",
+        "closing": "at the start",
+    },
+}
+
 
 @dataclass(frozen=True)
 class Fee:

@@ -44,7 +44,7 @@ from openpyxl import Workbook
 
 from amort import __version__
 from amort.apr import AprResult, Method, Standard, TimedFlow, YearBasis
-from amort.disclosure import Disclosure
+from amort.disclosure import WORDS, Disclosure
 from amort.errors import ExportError
 from amort.flows import FlowKind, Flows
 from amort.io.xlsx import (
@@ -68,29 +68,6 @@ SHEETS = {
 }
 
 #: The figures' names under each standard: the same sums, each regulation's words.
-WORDS = {
-    Standard.US_REGZ: {
-        "title": "Disclosure (US Regulation Z)",
-        "rate": "annual percentage rate (APR)",
-        "finance_charge": "finance charge",
-        "amount_financed": "amount financed",
-        "total_of_payments": "total of payments",
-        "prepaid": "prepaid finance charge (fees)",
-        "in_charge": "finance charge",
-        "closing": "at closing",
-    },
-    Standard.EU_CCD: {
-        "title": "Disclosure (EU Directive 2008/48/EC)",
-        "rate": "annual percentage rate of charge (APRC)",
-        "finance_charge": "total cost of credit",
-        "amount_financed": "credit advanced, net of charges",
-        "total_of_payments": "total of repayments",
-        "prepaid": "charges paid at the start",
-        "in_charge": "in the cost of credit",
-        "closing": "at the start",
-    },
-}
-
 _BASES = {
     YearBasis.DAYS: "days over 365 (366 in a leap year), whole years counted back",
     YearBasis.DAYS_365: "days over 365",
