@@ -7,7 +7,10 @@ deferred, the first periods of a perpetuity) run here too, under the same
 rules. Money is integer cents (``int64``, or Python integers in object
 arrays when a rate's ``num x den`` would not fit), each annuity's periodic
 rate the exact rational ``rate_num / rate_den``; every annuity of the batch
-is done in each step with vector operations.
+is done in each step with vector operations (for ordinary figures on the
+int64 fast path of :mod:`amort.annuity_fast`, which also holds the rules of
+one period below as :func:`~amort.annuity_fast.payout_step` and
+:func:`~amort.annuity_fast.deposit_step`).
 
 Rules of period k, with ``V`` the opening value and ``c_k`` the scheduled
 flow (DESIGN.md, "Money and rounding"; interest by :func:`amort.batch.interest_cents`):
@@ -50,7 +53,8 @@ import numpy as np
 import numpy.typing as npt
 
 from amort import variable
-from amort.batch import SAFE, BatchTerms, advance_remainder, exact_divmod, interest_cents
+from amort.annuity_fast import deposit_step, goal_sides, payout_step, run_fast
+from amort.batch import SAFE
 from amort.money import Rounding, round_ratio
 
 IntArray = npt.NDArray[np.int64]
@@ -136,23 +140,13 @@ class PathTable:
         return np.concatenate([[0], np.cumsum(self.rows)]).astype(np.int64)
 
 
-def _reaching(target: IntArray, num: IntArray, den: IntArray, mode: Rounding) -> IntArray:
-    """Return the smallest ``y`` with ``y + round(y i) >= target``, elementwise (``i >= 0``).
-
-    ``y + round(y i)`` rises by at least 1 with each cent of ``y``, and
-    ``floor(T / (1 + i))`` lies within two cents of the answer.
-    """
-    q, _ = exact_divmod(target * den, den + num)
-    best = q + 2
-    for shift in (1, 0, -1):
-        candidate = np.maximum(q + shift, 0)
-        reached = candidate + interest_cents(candidate, num, den, mode) >= target
-        best = np.where(reached, candidate, best)
-    return np.asarray(best)
-
-
 def run_path(terms: PathTerms, mode: Rounding = Rounding.HALF_UP) -> PathTable:
     """Step every annuity of the batch through its periods in exact cents (module docstring).
+
+    A batch of one runs as a plain-integer loop; a larger one on the int64 fast
+    path (:mod:`amort.annuity_fast`) when its figures are in that path's exact
+    range, else on the general path (int64, or Python integers for huge rates).
+    All three give the same cents.
 
     >>> one = lambda v: np.array([v], dtype=np.int64)
     >>> t = PathTerms(one(0), one(1), one(100), np.full((3, 1), 10_000), one(3),
@@ -163,27 +157,25 @@ def run_path(terms: PathTerms, mode: Rounding = Rounding.HALF_UP) -> PathTable:
     """
     if terms.size == 1:
         return _run_one(terms, mode)
+    columns = run_fast(terms, mode)
+    if columns is not None:
+        return PathTable(**columns)
+    return _run_general(terms, mode)
+
+
+def _run_general(terms: PathTerms, mode: Rounding) -> PathTable:
+    """The rules of :func:`run_path`, every annuity stepped with them each period."""
     dtype: Any = object if terms.big else np.int64
     loans = terms.size
     horizon = int(terms.periods.max(initial=0))
     num = terms.rate_num.astype(dtype)
     den = terms.rate_den.astype(dtype)
-    flows = terms.flows.astype(dtype)
+    flows = terms.flows.astype(dtype, copy=False)
     goal = None if terms.goal is None else terms.goal.astype(dtype)
     last = terms.periods
     advance = terms.advance
     deposits = terms.deposits
-    remainder = None
-    if terms.goal is not None and not deposits and advance.any():
-        zero = np.zeros(loans, dtype=np.int64)
-        remainder = advance_remainder(
-            BatchTerms(zero, terms.rate_num, terms.rate_den, zero, last, terms.goal, advance),
-            mode,
-            dtype,
-        )
-    reach = None
-    if goal is not None and deposits and advance.any():
-        reach = _reaching(goal, num, den, mode)
+    side = goal_sides(terms, mode, dtype)
 
     opening = np.zeros((horizon, loans), dtype=dtype)
     paid = np.zeros((horizon, loans), dtype=dtype)
@@ -193,13 +185,12 @@ def run_path(terms: PathTerms, mode: Rounding = Rounding.HALF_UP) -> PathTable:
     live = np.flatnonzero(last >= 1)
     everyone = live.size == loans
     value = terms.opening.astype(dtype)[live]
-    step = _deposit_step if deposits else _payout_step
+    step = deposit_step if deposits else payout_step
     for k in range(1, horizon + 1):
         if live.size == 0:
             break
         # A slice while every annuity is live: no gathers in the common case.
         at: slice | IntArray = slice(None) if everyone else live
-        side = None if goal is None else (reach if deposits else remainder)
         flow, intr, closes, need = step(
             value,
             flows[k - 1, at],
@@ -235,19 +226,8 @@ def _run_one(terms: PathTerms, mode: Rounding) -> PathTable:
     num, den = int(terms.rate_num[0]), int(terms.rate_den[0])
     last, adv, deposits = int(terms.periods[0]), bool(terms.advance[0]), terms.deposits
     goal = None if terms.goal is None else int(terms.goal[0])
-    side = 0
-    if goal is not None and adv:
-        one = np.array([goal], dtype=np.int64)
-        if deposits:
-            side = int(_reaching(one, terms.rate_num, terms.rate_den, mode)[0])
-        else:
-            zero = np.zeros(1, dtype=np.int64)
-            side = int(
-                advance_remainder(
-                    BatchTerms(zero, terms.rate_num, terms.rate_den, zero, terms.periods, one,
-                               terms.advance), mode, object,
-                )[0]
-            )  # fmt: skip
+    sides = goal_sides(terms, mode, object)
+    side = 0 if sides is None else int(sides[0])
 
     def interest(balance: int) -> int:
         return round_ratio(balance * num, den, mode)
@@ -301,86 +281,6 @@ def _run_one(terms: PathTerms, mode: Rounding) -> PathTable:
         as_rows(opening), as_rows(paid), as_rows(credited),
         np.array([len(opening)], dtype=np.int64), np.array([need]), deposits,
     )  # fmt: skip
-
-
-def _payout_step(
-    value: IntArray,
-    c: IntArray,
-    num: IntArray,
-    den: IntArray,
-    adv: BoolArray,
-    final: BoolArray,
-    goal: IntArray | None,
-    remainder: IntArray | None,
-    mode: Rounding,
-) -> tuple[IntArray, IntArray, BoolArray, IntArray]:
-    """One period of payouts: (payment, interest, closes, payment the goal needed)."""
-    some_advance = bool(adv.any())
-    if some_advance:
-        # In advance the payment is known before the interest: what stays earns it.
-        if goal is None:
-            closes_adv = final | (c >= value)
-            pay_adv = np.minimum(c, value)
-        else:
-            assert remainder is not None
-            left = value - remainder
-            closes_adv = final | (left < c) | ((left == c) & (remainder == 0))
-            pay_adv = np.where(closes_adv, left, c)
-        base = np.where(adv, np.maximum(value - pay_adv, 0), value)
-    else:
-        base = value
-    intr = interest_cents(base, num, den, mode)
-    if goal is None:
-        # No residual to leave: pay as scheduled, unless the fund runs out first.
-        available = value + intr
-        closes = final | (c >= available)
-        pay = np.minimum(c, available)
-    else:
-        due = value + intr - goal
-        # As the loan engine: a fund that merely stays at the residual runs on to the end.
-        closes = final | (due < c) | ((due == c) & (goal == 0))
-        pay = np.where(closes, due, c)
-    if some_advance:
-        pay = np.where(adv, pay_adv, pay)
-        closes = np.where(adv, closes_adv, closes)
-    return pay, intr, np.asarray(closes, dtype=bool), pay
-
-
-def _deposit_step(
-    value: IntArray,
-    c: IntArray,
-    num: IntArray,
-    den: IntArray,
-    adv: BoolArray,
-    final: BoolArray,
-    goal: IntArray | None,
-    reach: IntArray | None,
-    mode: Rounding,
-) -> tuple[IntArray, IntArray, BoolArray, IntArray]:
-    """One period of deposits: (deposit, interest, closes, deposit the target needed)."""
-    if goal is None:
-        # Every deposit as scheduled; in advance it earns the period's interest.
-        intr = interest_cents(np.where(adv, value + c, value), num, den, mode)
-        return c, intr, np.asarray(final, dtype=bool), c
-    some_advance = bool(adv.any())
-    if some_advance:
-        # In advance the deposit is known before the interest: the smallest that reaches.
-        assert reach is not None
-        need_adv = reach - value
-        closes_adv = final | (need_adv <= c)
-        dep_adv = np.where(closes_adv, np.maximum(need_adv, 0), c)
-        base = np.where(adv, value + dep_adv, value)
-    else:
-        base = value
-    intr = interest_cents(base, num, den, mode)
-    need = goal - value - intr
-    closes = final | (need <= c)
-    dep = np.where(closes, np.maximum(need, 0), c)
-    if some_advance:
-        dep = np.where(adv, dep_adv, dep)
-        closes = np.where(adv, closes_adv, closes)
-        need = np.where(adv, need_adv, need)
-    return dep, intr, np.asarray(closes, dtype=bool), np.asarray(need)
 
 
 def _transposed(a: IntArray, block: int = 1024) -> IntArray:

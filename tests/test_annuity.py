@@ -11,6 +11,7 @@ its residual, an accumulation reaches its target with its last deposit.
 from __future__ import annotations
 
 import dataclasses
+import tracemalloc
 from datetime import date
 from decimal import Decimal
 from fractions import Fraction
@@ -20,10 +21,10 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from amort import InvalidTerms, Loan, NoSolution
+from amort import InvalidTerms, Loan, NoSolution, annuity_fast
 from amort.annuity import Payout
 from amort.annuity_accumulation import Accumulation
-from amort.annuity_cents import PathTerms, run_path
+from amort.annuity_cents import PathTable, PathTerms, _run_general, run_path
 from amort.annuity_flows import flow_path
 from amort.graduated import payment_path
 from amort.money import Rounding
@@ -247,6 +248,185 @@ def test_the_path_is_vectorised_over_a_batch() -> None:
     for j, single in enumerate(singles):
         mine = table.closing[table.annuity == j]
         assert (mine == single._built[1].closing).all()
+
+
+# -- the int64 fast path: the same cents as the general path ----------------------------------
+#
+# run_path takes amort.annuity_fast.run_fast for a batch of two or more when its figures are
+# in that path's exact range, else the general path (every period by the full rules). The
+# outside check of both is tests/reference/test_annuity_cents.py; here the two paths are
+# held to each other on many more batches, including the fast path's own machinery (several
+# chunks, frozen and packed annuities, partial blocks) and its fallbacks.
+
+PATH_FIELDS = ("annuity", "period", "opening", "flow", "interest", "closing", "rows",
+               "final_flow", "final_needed")  # fmt: skip
+
+
+def seeded_batch(seed: int, *, deposits: bool, goal: bool, size: int = 0) -> PathTerms:
+    """Invented annuities: rates to 30 % a year in whole basis points, a month (over 12;
+    6 % gives half-cent ties) or a day (over 365), level or varying flows, mixed timing and
+    lengths, goals met early."""
+    rng = np.random.default_rng(seed)
+    size = size or int(rng.integers(2, 400))
+    horizon = int(rng.integers(1, 90))
+    periods = np.where(rng.random(size) < 0.5, rng.integers(0, horizon + 1, size), horizon)
+    periods[0] = horizon
+    daily = rng.random() < 0.3
+    den = np.full(size, 3_650_000 if daily else 120_000, dtype=np.int64)
+    num = np.where(rng.random(size) < 0.5, 600, rng.integers(0, 3_000, size))
+    opening = rng.integers(0, 10 ** int(rng.integers(1, 9)), size)
+    level = rng.integers(0, 10 ** int(rng.integers(1, 7)), size)
+    flows = np.broadcast_to(level, (horizon, size)).copy()
+    varied = rng.random((horizon, size)) < 0.3
+    flows[varied] = rng.integers(0, 2 * 10**6, int(varied.sum()))
+    goals = None
+    if goal and deposits:
+        goals = opening + rng.integers(0, 10 ** int(rng.integers(2, 9)), size)
+    elif goal:
+        goals = np.where(rng.random(size) < 0.4, 0, (opening * rng.random(size)).astype(np.int64))
+    return PathTerms(
+        opening=opening.astype(np.int64), rate_num=num.astype(np.int64), rate_den=den,
+        flows=flows.astype(np.int64), periods=periods.astype(np.int64),
+        advance=rng.random(size) < rng.choice([0.0, 0.5, 1.0]), deposits=deposits,
+        goal=None if goals is None else goals.astype(np.int64),
+    )  # fmt: skip
+
+
+def assert_same_tables(got: PathTable, want: PathTable) -> None:
+    for field in PATH_FIELDS:
+        a, b = getattr(got, field), getattr(want, field)
+        assert a.dtype == np.int64, field
+        assert a.shape == b.shape and (a == b).all(), field
+
+
+@pytest.mark.parametrize("mode", list(Rounding), ids=[m.value for m in Rounding])
+@pytest.mark.parametrize(("deposits", "goal"), [(True, True), (True, False), (False, True),
+                                                (False, False)])  # fmt: skip
+@pytest.mark.parametrize("seed", range(6))
+def test_the_fast_path_gives_the_general_paths_cents(seed, deposits, goal, mode, monkeypatch):
+    # Small chunks, blocks and packing sizes make every batch use all of the fast path.
+    monkeypatch.setattr(annuity_fast, "_CHUNK", [64, 100, 16_384][seed % 3])
+    monkeypatch.setattr(annuity_fast, "_BLOCK", [7, 256][seed % 2])
+    monkeypatch.setattr(annuity_fast, "_PACK", [4, 64][seed % 2])
+    terms = seeded_batch(seed, deposits=deposits, goal=goal)
+    fast = annuity_fast.run_fast(terms, mode)
+    assert fast is not None
+    assert_same_tables(PathTable(**fast), _run_general(terms, mode))
+
+
+@pytest.mark.parametrize("mode", list(Rounding), ids=[m.value for m in Rounding])
+def test_half_cent_ties_are_rounded_as_the_mode_says(mode) -> None:
+    # 6 % a year over 12 is 1/200: a value of 100 + 200 m cents earns m + 1/2 cents, a tie.
+    size = 64
+    opening = 100 + 200 * np.arange(size, dtype=np.int64)
+    terms = PathTerms(
+        opening=opening, rate_num=np.full(size, 1), rate_den=np.full(size, 200),
+        flows=np.zeros((1, size), dtype=np.int64), periods=np.ones(size, dtype=np.int64),
+        advance=np.zeros(size, dtype=bool), deposits=True,
+    )  # fmt: skip
+    table = run_path(terms, mode)
+    m = np.arange(size)
+    expected = {
+        Rounding.HALF_UP: m + 1,
+        Rounding.HALF_EVEN: np.where(m % 2 == 0, m, m + 1),
+        Rounding.UP: m + 1,
+        Rounding.DOWN: m,
+    }[mode]
+    assert (table.interest == expected).all()
+    assert_same_tables(table, _run_general(terms, mode))
+
+
+@given(
+    opening=st.lists(st.integers(0, 10**12), min_size=2, max_size=6),
+    rate_num=st.integers(0, 3_000),
+    flow=st.integers(0, 10**9),
+    periods=st.integers(1, 40),
+    advance=st.booleans(),
+    deposits=st.booleans(),
+    goal=st.one_of(st.none(), st.integers(0, 10**13)),
+    mode=st.sampled_from(list(Rounding)),
+)
+def test_fast_and_general_paths_agree_on_any_batch(
+    opening, rate_num, flow, periods, advance, deposits, goal, mode
+) -> None:
+    size = len(opening)
+    goals = None
+    if goal is not None:
+        goals = np.array([v + goal + 1 if deposits else min(goal, v) for v in opening])
+    terms = PathTerms(
+        opening=np.array(opening, dtype=np.int64), rate_num=np.full(size, rate_num),
+        rate_den=np.full(size, 120_000), flows=np.full((periods, size), flow),
+        periods=np.arange(periods, periods - size, -1).clip(1),
+        advance=np.array([advance, not advance] * size)[:size], deposits=deposits,
+        goal=None if goals is None else goals.astype(np.int64),
+    )  # fmt: skip
+    assert_same_tables(run_path(terms, mode), _run_general(terms, mode))
+
+
+def test_figures_beyond_the_exact_range_take_the_general_path() -> None:
+    # Each batch is outside the float64 step's exact range (amort.annuity_fast notes), so
+    # run_fast declines it and run_path's cents are the general path's (Python integers
+    # where needed) - and, annuity by annuity, the plain-integer loop's.
+    def batch(**changes) -> PathTerms:
+        base = dict(
+            opening=np.array([10**6, 2 * 10**6]), rate_num=np.array([5, 7]),
+            rate_den=np.array([1_200, 1_200]), flows=np.full((30, 2), 10**5),
+            periods=np.array([30, 30]), advance=np.array([False, True]), deposits=True,
+        )  # fmt: skip
+        return PathTerms(**{**base, **changes})
+
+    huge = [
+        batch(opening=np.array([2**53, 5])),  # a value past 2**51 cents
+        batch(flows=np.full((30, 2), 2**50)),  # deposits that take the value past it
+        batch(opening=np.array([10**9, 5]), rate_num=np.array([10**7, 7]),
+              rate_den=np.array([10**8, 1_200])),  # value x rate numerator past 2**52
+        batch(rate_num=np.array([3, 1]), rate_den=np.array([2**50, 12])),  # a wide denominator
+        # deposits that leave the range part-way (the interest passes 2**38 cents at period 5)
+        batch(flows=np.full((120, 2), 10**13), periods=np.array([120, 120])),
+        batch(rate_num=np.array([1, 2**61], dtype=object),
+              rate_den=np.array([12, 2**62], dtype=object)),  # Python-integer rates
+        batch(flows=np.array([[-5, 10]] * 30)),  # a negative flow
+    ]  # fmt: skip
+    for terms in huge:
+        for mode in Rounding:
+            assert annuity_fast.run_fast(terms, mode) is None
+            table = run_path(terms, mode)
+            assert_same_tables(table, _run_general(terms, mode))
+            for j in range(2):
+                one = dataclasses.replace(
+                    terms, **{f: getattr(terms, f)[j : j + 1] for f in
+                              ("opening", "rate_num", "rate_den", "periods", "advance")},
+                    flows=terms.flows[:, j : j + 1],
+                )  # fmt: skip
+                single = run_path(one, mode)
+                assert (table.closing[table.annuity == j] == single.closing).all()
+
+
+def test_annuities_without_periods_have_no_rows() -> None:
+    terms = seeded_batch(3, deposits=True, goal=False, size=50)
+    terms = dataclasses.replace(terms, periods=np.where(np.arange(50) % 3 == 0, 0, terms.periods))
+    table = run_path(terms)
+    assert (table.rows[::3] == 0).all()
+    assert not np.isin(np.arange(0, 50, 3), table.annuity).any()
+    assert_same_tables(table, _run_general(terms, Rounding.HALF_UP))
+
+
+def test_the_fast_path_holds_the_table_and_little_else() -> None:
+    # Bounded memory: the six int64 columns, one chunk's buffer (at most 64 MiB, here
+    # 16,384 x 61 x 8 bytes) and the working vectors. Measured with tracemalloc, which
+    # numpy reports its arrays to.
+    terms = seeded_batch(5, deposits=True, goal=False, size=40_000)
+    terms = dataclasses.replace(terms, flows=np.full((60, 40_000), 12_345),
+                                periods=np.full(40_000, 60))  # fmt: skip
+    tracemalloc.start()
+    try:
+        table = run_path(terms)
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+    table_bytes = 6 * 8 * int(table.rows.sum())
+    assert table_bytes == 6 * 8 * 40_000 * 60
+    assert peak < table_bytes + 16 * 2**20
 
 
 # -- properties (hypothesis) -----------------------------------------------------------------

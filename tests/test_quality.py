@@ -65,6 +65,7 @@ CORE = {
     "graduated",
     "annuity_forms",
     "annuity_cents",
+    "annuity_fast",
     "apr",
     "flows",
     "toml_lines",

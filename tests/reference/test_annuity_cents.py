@@ -10,14 +10,19 @@ ROUND_DOWN), and the schedule by a plain loop over Decimal amounts.
 
 from __future__ import annotations
 
+import dataclasses
 import random
-from decimal import ROUND_DOWN, ROUND_HALF_EVEN, ROUND_HALF_UP, ROUND_UP, Decimal
+from decimal import ROUND_DOWN, ROUND_HALF_EVEN, ROUND_HALF_UP, ROUND_UP, Decimal, localcontext
 from fractions import Fraction
 
+import numpy as np
 import pytest
 
 from amort.annuity import Payout
 from amort.annuity_accumulation import Accumulation
+from amort.annuity_cents import PathTerms, run_path
+from amort.annuity_fast import run_fast
+from amort.money import Rounding
 
 CENT = Decimal("0.01")
 MODES = {"half-up": ROUND_HALF_UP, "half-even": ROUND_HALF_EVEN, "up": ROUND_UP, "down": ROUND_DOWN}
@@ -214,3 +219,219 @@ def test_random_target_reached_matches_the_reference(seed: int) -> None:
     )  # fmt: skip
     assert fund.target == value
     assert fund.reconciliation().passed
+
+
+# -- whole batches: the vectorised paths against a decimal loop of the rules ------------------
+#
+# amort.annuity_cents.run_path steps a batch of annuities at once (its int64 fast path in
+# amort.annuity_fast, or the general path). The reference below is written here from the
+# rules in amort.annuity_cents's module docstring, one annuity at a time in Python
+# integers, every interest rounded by Python's decimal module. It restates those rules
+# (every rounding mode, advance and arrears, payouts and deposits, with and without a
+# residual or target, early closes, the advance remainder and reach) and shares no code
+# with amort.
+
+DECIMAL_MODES = {
+    Rounding.HALF_UP: ROUND_HALF_UP,
+    Rounding.HALF_EVEN: ROUND_HALF_EVEN,
+    Rounding.UP: ROUND_UP,
+    Rounding.DOWN: ROUND_DOWN,
+}
+
+
+def cents_interest(base: int, rate: Fraction, mode: Rounding) -> int:
+    """round(base x rate) in cents by Python's decimal module (60 digits: exact at ties)."""
+    exact = Fraction(base) * rate
+    with localcontext() as ctx:
+        ctx.prec = 60
+        value = Decimal(exact.numerator) / Decimal(exact.denominator)
+        return int(value.quantize(Decimal(1), rounding=DECIMAL_MODES[mode]))
+
+
+def remainder_left(goal: int, rate: Fraction, mode: Rounding) -> int:
+    """The cents y left after the last payment in advance: y + interest(y) = goal exactly
+    when some cent amount gives it, else goal / (1 + i) rounded half-up (loan engine rule)."""
+    if goal <= 0:
+        return 0
+    near = int(
+        (Decimal(goal) / (1 + Decimal(rate.numerator) / Decimal(rate.denominator))).quantize(
+            Decimal(1), rounding=ROUND_HALF_UP
+        )
+    )
+    for y in range(max(near - 3, 0), near + 4):
+        if y + cents_interest(y, rate, mode) == goal:
+            return y
+    return near
+
+
+def smallest_reaching(target: int, rate: Fraction, mode: Rounding) -> int:
+    """The smallest cents y with y + interest(y) >= target, by a plain search."""
+    y = max(int(Fraction(target) / (1 + rate)) - 3, 0)
+    while y + cents_interest(y, rate, mode) < target:
+        y += 1
+    return y
+
+
+def reference_annuity(opening, rate, flows, last, advance, deposits, goal, mode):
+    """Rows (opening, flow, interest, closing) and the flow the goal needed, by the rules."""
+    rows, value, need = [], opening, 0
+    side = 0
+    if goal is not None and advance:
+        side = (smallest_reaching if deposits else remainder_left)(goal, rate, mode)
+    for k in range(1, last + 1):
+        c, final = flows[k - 1], k == last
+        if deposits:
+            if goal is None:
+                flow, closes = c, final
+                intr = cents_interest(value + c if advance else value, rate, mode)
+                need = c
+            elif advance:
+                need = side - value
+                closes = final or need <= c
+                flow = max(need, 0) if closes else c
+                intr = cents_interest(value + flow, rate, mode)
+            else:
+                intr = cents_interest(value, rate, mode)
+                need = goal - value - intr
+                closes = final or need <= c
+                flow = max(need, 0) if closes else c
+            closing = value + intr + flow
+        else:
+            if advance:
+                if goal is None:
+                    closes, flow = final or c >= value, min(c, value)
+                else:
+                    left = value - side
+                    closes = final or left < c or (left == c and side == 0)
+                    flow = left if closes else c
+                intr = cents_interest(max(value - flow, 0), rate, mode)
+            else:
+                intr = cents_interest(value, rate, mode)
+                if goal is None:
+                    closes, flow = final or c >= value + intr, min(c, value + intr)
+                else:
+                    due = value + intr - goal
+                    closes = final or due < c or (due == c and goal == 0)
+                    flow = due if closes else c
+            need = flow
+            closing = value + intr - flow
+        rows.append((value, flow, intr, closing))
+        value = closing
+        if closes:
+            break
+    return rows, need
+
+
+def random_batch(rng: random.Random, size: int, deposits: bool, with_goal: bool) -> PathTerms:
+    """Invented annuities: rates of whole basis points a year over 12 (ties at 6 %), flows
+    level or varying, mixed timing and lengths, goals that some annuities meet early."""
+    horizon = rng.randint(1, 48)
+    periods = [rng.randint(1, horizon) if rng.random() < 0.6 else horizon for _ in range(size)]
+    periods[0] = horizon
+    bp = [rng.choice([0, 600, 600, rng.randint(1, 2_500)]) for _ in range(size)]
+    opening = [
+        rng.choice([0, rng.randint(0, 10**7), 100 * rng.randint(0, 10**5)]) for _ in range(size)
+    ]
+    level = [rng.randint(0, 10**6) for _ in range(size)]
+    flows = [
+        [level[j] if rng.random() < 0.7 else rng.randint(0, 2 * level[j] + 1) for j in range(size)]
+        for _ in range(horizon)
+    ]
+    advance = [rng.random() < 0.5 for _ in range(size)]
+    goal = None
+    if with_goal and deposits:
+        goal = [opening[j] + rng.randint(0, 3 * 10**7) for j in range(size)]
+    elif with_goal:
+        goal = [rng.choice([0, 0, rng.randint(0, opening[j] + 1)]) for j in range(size)]
+    as_int = lambda xs: np.array(xs, dtype=np.int64)  # noqa: E731
+    return PathTerms(
+        opening=as_int(opening),
+        rate_num=as_int(bp),
+        rate_den=np.full(size, 120_000, dtype=np.int64),
+        flows=as_int(flows).reshape(horizon, size),
+        periods=as_int(periods),
+        advance=np.array(advance),
+        deposits=deposits,
+        goal=None if goal is None else as_int(goal),
+    )
+
+
+def reference_table(terms: PathTerms, mode: Rounding) -> list[tuple[list, int]]:
+    """Each annuity's reference rows and needed flow."""
+    return [
+        reference_annuity(
+            int(terms.opening[j]),
+            Fraction(int(terms.rate_num[j]), int(terms.rate_den[j])),
+            terms.flows[:, j].tolist(),
+            int(terms.periods[j]),
+            bool(terms.advance[j]),
+            terms.deposits,
+            None if terms.goal is None else int(terms.goal[j]),
+            mode,
+        )
+        for j in range(terms.size)
+    ]
+
+
+def on_the_boundary(rng: random.Random, terms: PathTerms, mode: Rounding) -> PathTerms:
+    """The same annuities with goals met exactly, to the cent, at some period.
+
+    Each goal is a value the annuity reaches exactly without one (so a target is reached
+    with a scheduled deposit, and a residual is a value the fund merely stays at); some
+    payouts also pay at one period exactly what the fund then holds (it empties there).
+    """
+    flows = terms.flows.copy()
+    free = dataclasses.replace(terms, goal=None)
+    goal = []
+    for j, (rows, _) in enumerate(reference_table(free, mode)):
+        k = rng.randrange(len(rows))
+        goal.append(rows[k][3])
+        if not terms.deposits and rng.random() < 0.3:
+            value, _, intr, _ = rows[k]
+            # In arrears the fund holds value + interest when it pays; in advance, value.
+            flows[k, j] = value if bool(terms.advance[j]) else value + intr
+    if not terms.deposits:
+        goal = [g if rng.random() < 0.6 else 0 for g in goal]
+    return dataclasses.replace(terms, flows=flows, goal=np.array(goal, dtype=np.int64))
+
+
+def assert_batch_is_the_reference(terms: PathTerms, mode: Rounding) -> None:
+    assert run_fast(terms, mode) is not None  # the batch is the fast path's to run
+    table = run_path(terms, mode)
+    offsets = table.offsets
+    for j, (want, need) in enumerate(reference_table(terms, mode)):
+        at = slice(int(offsets[j]), int(offsets[j + 1]))
+        got = list(
+            zip(
+                table.opening[at].tolist(),
+                table.flow[at].tolist(),
+                table.interest[at].tolist(),
+                table.closing[at].tolist(),
+                strict=True,
+            )
+        )
+        assert got == want, f"annuity {j}"
+        assert table.period[at].tolist() == list(range(1, len(want) + 1))
+        assert int(table.final_needed[j]) == need
+
+
+@pytest.mark.parametrize("mode", list(Rounding), ids=[m.value for m in Rounding])
+@pytest.mark.parametrize("deposits", [True, False], ids=["deposits", "payouts"])
+@pytest.mark.parametrize("with_goal", [True, False], ids=["goal", "no-goal"])
+@pytest.mark.parametrize("seed", range(3))
+def test_batch_cents_equal_a_decimal_loop(seed, with_goal, deposits, mode) -> None:
+    # Independent exact reference: Python decimal / fractions, one annuity at a time (above).
+    rng = random.Random(f"{seed}-{with_goal}-{deposits}-{mode.value}")
+    terms = random_batch(rng, rng.randint(2, 120), deposits, with_goal)
+    assert_batch_is_the_reference(terms, mode)
+
+
+@pytest.mark.parametrize("mode", list(Rounding), ids=[m.value for m in Rounding])
+@pytest.mark.parametrize("deposits", [True, False], ids=["deposits", "payouts"])
+@pytest.mark.parametrize("seed", range(3))
+def test_goals_met_to_the_cent_equal_a_decimal_loop(seed, deposits, mode) -> None:
+    # Independent exact reference: Python decimal / fractions (above), at the closing
+    # rules' boundaries: a value equal to its target or residual, a fund paid to zero.
+    rng = random.Random(f"edge-{seed}-{deposits}-{mode.value}")
+    terms = random_batch(rng, rng.randint(2, 80), deposits, with_goal=False)
+    assert_batch_is_the_reference(on_the_boundary(rng, terms, mode), mode)
