@@ -14,6 +14,8 @@ from amort.annuity import Payout
 from amort.annuity_accumulation import Accumulation
 from amort.annuity_cents import AnnuityCheck
 from amort.apr import Standard
+from amort.book import Book, read_book
+from amort.book_positions import positions
 from amort.calendar import BusinessDay
 from amort.caution import CAUTION
 from amort.conventions import Frequency, Timing
@@ -24,6 +26,7 @@ from amort.errors import AmortError, ExportError, InvalidTerms, NoSolution
 from amort.flows import Flow, Flows, read_flows
 from amort.loan import Loan, Reconciliation
 from amort.money import Rounding
+from amort.projection import project
 from amort.rates import Compounding
 
 __version__ = "0.1.0"
@@ -51,6 +54,7 @@ __all__ = [
     "Accumulation",
     "AmortError",
     "AnnuityCheck",
+    "Book",
     "BusinessDay",
     "Compounding",
     "DayCount",
@@ -73,6 +77,9 @@ __all__ = [
     "__version__",
     "disclose",
     "disclose_flows",
+    "positions",
+    "project",
+    "read_book",
     "read_flows",
     "solve",
     "write_annuity_workbook",

@@ -69,6 +69,8 @@ CORE = {
     "apr",
     "flows",
     "toml_lines",
+    "book_dates",
+    "book_step",
 }
 FORBIDDEN_IN_CORE = {"pandas", "sympy", "openpyxl", "typer", "rich", "amort.cli", "amort.io"}
 
