@@ -62,6 +62,10 @@ class Rounding(enum.Enum):
 _NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
 
 
+#: A number whose commas group thousands: 1,234,567.89 (not 6,5 or 1,23).
+_THOUSANDS = re.compile(r"^[+-]?\d{1,3}(,\d{3})+(\.\d*)?%?$")
+
+
 def parse_number(value: object, field: str) -> Decimal:
     """Return ``value`` as an exact finite decimal; floats through their shortest repr.
 
@@ -84,7 +88,14 @@ def parse_number(value: object, field: str) -> Decimal:
     elif isinstance(value, (np.integer, np.floating)):
         return parse_number(value.item(), field)
     elif isinstance(value, str):
-        text = value.strip().replace("_", "").replace(",", "")
+        text = value.strip().replace("_", "")
+        if "," in text and not _THOUSANDS.match(text):
+            # "6,5" must not silently read as 65: commas only group thousands.
+            raise InvalidTerms(
+                f"{field!r} must be a number with a dot for decimals; commas may only "
+                f"group thousands, as in 250,000.00 (got {describe(value)})"
+            )
+        text = text.replace(",", "")
         if not _NUMBER.match(text):
             raise InvalidTerms(f"{field!r} must be a number (got {describe(value)})")
         result = Decimal(text)

@@ -307,3 +307,17 @@ def test_cents_round_trip() -> None:
         assert amount == Decimal(cents).scaleb(-2)
         assert to_cents(amount) == cents
         assert to_cents(parse_amount(str(abs(amount)), allow_zero=True)) == abs(cents)
+
+
+@pytest.mark.parametrize("text", ["6,5", "1,23", "12,3456", "1,0000.5", ",5"])
+def test_a_decimal_comma_is_refused_not_read_as_thousands(text: str) -> None:
+    # "6,5" (a decimal comma, common practice in much of Europe) must not become 65.
+    with pytest.raises(InvalidTerms, match="commas may only group thousands"):
+        parse_number(text, "rate")
+
+
+@pytest.mark.parametrize(
+    ("text", "value"), [("250,000.00", "250000.00"), ("1,234,567", "1234567"), ("-1,000", "-1000")]
+)
+def test_thousands_commas_still_read(text: str, value: str) -> None:
+    assert parse_number(text, "amount") == Decimal(value)
