@@ -3,7 +3,9 @@
 ``amort book FILE --as-of DATE`` reads and validates the book, prints the row counts,
 the book's positions (totals, by segment, the first loans) and the rejected rows;
 ``--project`` prints the projected collections by year instead. ``--out`` writes the
-full table (and the rejected rows), ``--schedules`` every loan's schedule to Parquet.
+full table (and the rejected rows; a positions workbook adds schedule sheets for the
+first loans, a projection workbook a charts sheet), ``--schedules`` every loan's
+schedule to Parquet, ``--plot`` (with ``--project``) a picture of the projection.
 Nothing is computed here.
 """
 
@@ -25,8 +27,11 @@ from amort.book_positions import positions, positions_totals
 from amort.cli_options import AsJson
 from amort.cli_output import caution, emit_json, err, errors, figures_table, out, print_whole
 from amort.errors import InvalidTerms
-from amort.io.book_export import export_table
+from amort.io.book_export import LOAN_SHEETS, export_table, export_targets
 from amort.io.book_parquet import write_schedules
+from amort.io.files import check_target
+from amort.io.png import plot_projection
+from amort.io.xlsx_book import projection_by_month
 from amort.money import parse_rate
 from amort.projection import project
 
@@ -38,7 +43,8 @@ BookFile = Annotated[
 ]
 AsOf = Annotated[str, typer.Option("--as-of", help="The date of the positions, YYYY-MM-DD.")]
 Force = Annotated[
-    bool, typer.Option("--force", help="Replace existing output files (--out, --schedules).")
+    bool,
+    typer.Option("--force", help="Replace existing output files (--out, --schedules, --plot)."),
 ]
 
 
@@ -90,11 +96,26 @@ def book(
     ] = False,
     out_file: Annotated[
         Path | None,
-        typer.Option("--out", help="Write the full table to FILE.csv, FILE.xlsx or FILE.parquet."),
+        typer.Option(
+            "--out",
+            help=(
+                "Write the full table to FILE.csv, FILE.xlsx or FILE.parquet. A positions "
+                f"workbook adds a schedule sheet for each of the first {LOAN_SHEETS} loans "
+                "and, for a larger book, every schedule in FILE.schedules.parquet beside it; "
+                "a projection workbook adds a charts sheet."
+            ),
+        ),
     ] = None,
     schedules: Annotated[
         Path | None,
         typer.Option("--schedules", help="Stream every loan's schedule to FILE.parquet."),
+    ] = None,
+    plot: Annotated[
+        Path | None,
+        typer.Option(
+            "--plot",
+            help="With --project: draw the projected balance and monthly collections to FILE.png.",
+        ),
     ] = None,
     show: Annotated[int, typer.Option("--show", help="Loans (or rejected rows) to list.")] = 10,
     force: Force = False,
@@ -102,6 +123,10 @@ def book(
 ) -> None:
     """Positions of a loan book as of a date, or its projected cash flows (--project)."""
     with errors():
+        if plot is not None and not project_:
+            raise InvalidTerms(
+                f"--plot draws a projection and needs --project (got --plot {plot} without it)"
+            )
         loaded = _read(file, strict)
         notes: dict[str, Any] = {"book": str(file), **loaded.counts, "as_of": as_of}
         written: list[Path] = []
@@ -127,14 +152,27 @@ def book(
                     f"--group-by must be a label column of the book: one of "
                     f"{', '.join(repr(c) for c in [*labels, 'status'])} (got {group_by!r})"
                 )
+        _check_targets(loaded, sheet, out_file, schedules, plot, force)
         if out_file is not None:
             written += export_table(
-                table, out_file, sheet=sheet, rejected=loaded.rejected, notes=notes, force=force
+                table,
+                out_file,
+                sheet=sheet,
+                rejected=loaded.rejected,
+                notes=notes,
+                force=force,
+                loans=loaded.loans,
             )
         if schedules is not None:
             with _progress(len(loaded.loans), "schedules") as tick:
                 write_schedules(loaded, schedules, force=force, progress=tick)
             written.append(schedules)
+        if plot is not None:
+            written.append(
+                plot_projection(
+                    projection_by_month(table), plot, title=_plot_title(file, notes), force=force
+                )
+            )
     if as_json:
         _json(loaded, table, project_, notes, group_by, written)
         return
@@ -147,6 +185,44 @@ def book(
     for path in written:
         out.print(f"wrote {path}")
     caution()
+
+
+def _check_targets(
+    loaded: Book,
+    sheet: str,
+    out_file: Path | None,
+    schedules: Path | None,
+    plot: Path | None,
+    force: bool,
+) -> None:
+    """Check every file this run would write before any is written (and that none repeats)."""
+    targets: list[Path] = []
+    if out_file is not None:
+        targets += export_targets(
+            out_file, sheet=sheet, rejected=loaded.rejected, loans=loaded.loans
+        )
+    if schedules is not None:
+        targets.append(schedules)
+    if plot is not None:
+        if plot.suffix.lower() != ".png":
+            raise InvalidTerms(f"--plot must name a .png file (got {str(plot)!r})")
+        targets.append(plot)
+    seen: set[Path] = set()
+    for target in targets:
+        resolved = target.resolve()
+        if resolved in seen:
+            raise InvalidTerms(
+                f"two outputs would be written to {str(target)!r}; name another file"
+            )
+        seen.add(resolved)
+        check_target(target, force=force)
+
+
+def _plot_title(file: Path, notes: dict[str, Any]) -> str:
+    return (
+        f"Projection of {file.name} as of {notes['as_of']}: prepayment {notes['prepayment']}, "
+        f"defaults {notes['defaults']}, recovery {notes['recovery']}"
+    )
 
 
 def _read(file: Path, strict: bool) -> Book:

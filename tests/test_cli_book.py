@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import struct
 from pathlib import Path
 
 import openpyxl
@@ -104,7 +105,8 @@ def test_out_writes_the_table_and_the_rejected_rows(tmp_path: Path, suffix: str)
         assert len(table) == 2 and rejected["row"].nunique() == 12
     elif suffix == ".xlsx":
         book = openpyxl.load_workbook(target, read_only=True)
-        assert book.sheetnames == ["positions", "rejected rows", "about"]
+        assert book.sheetnames[:4] == ["positions", "rejected rows", "about", "loan sheets"]
+        assert len(book.sheetnames) == 4 + 2  # one schedule sheet for each of the 2 loans
         about = [tuple(r) for r in book["about"].iter_rows(values_only=True)]
         assert about[0] == ("caution", CAUTION)
         assert sum(1 for _ in book["rejected rows"].iter_rows()) == 1 + 13
@@ -152,7 +154,7 @@ def test_strict_fails_with_the_counts_and_the_first_bad_row() -> None:
     code, _, stderr = invoke(PROBLEMS, "--as-of", "2025-06-30", "--strict")
     assert code == 2
     assert "rows read 2, processed 1, rejected 1" in stderr
-    assert "Error: row 5: 'principal' must be a number (got '18,5OO')" in stderr
+    assert "Error: row 5: 'principal' must be a number" in stderr and "(got '18,5OO')" in stderr
 
 
 @pytest.mark.parametrize(
@@ -170,3 +172,82 @@ def test_bad_input_is_one_sentence_and_an_exit_code(args: list[str], code: int, 
     got, _, stderr = invoke(*args)
     assert got == code
     assert words in stderr and stderr.startswith("Error:")
+
+
+PROJECT = ("--as-of", "2025-06-30", "--project", "--psa", "150", "--cdr", "1", "--recovery", "40")
+
+
+def _png_size(path: Path) -> tuple[int, int]:
+    # PNG file format (ISO/IEC 15948): an 8-byte signature, then the IHDR chunk whose
+    # first two 4-byte big-endian fields are the width and height [memory].
+    head = path.read_bytes()[:24]
+    assert head[:8] == b"\x89PNG\r\n\x1a\n" and head[12:16] == b"IHDR"
+    width, height = struct.unpack(">II", head[16:24])
+    return width, height
+
+
+def test_plot_draws_the_projection_at_the_default_size(tmp_path: Path) -> None:
+    target = tmp_path / "book.png"
+    code, stdout, stderr = invoke(BOOK, *PROJECT, "--plot", str(target))
+    assert code == 0, stderr
+    assert f"wrote {target}" in stdout.replace("\n", "")
+    assert _png_size(target) == (1200, 800)
+
+
+def test_plot_title_states_the_book_and_the_assumptions() -> None:
+    from amort.cli_book import _plot_title
+
+    notes = {"as_of": "2025-06-30", "prepayment": "150 % PSA", "defaults": "1 % CDR"}
+    notes["recovery"] = "40 % after 6 months"
+    assert _plot_title(Path(BOOK), notes) == (
+        "Projection of tallowmere_book.csv as of 2025-06-30: prepayment 150 % PSA, "
+        "defaults 1 % CDR, recovery 40 % after 6 months"
+    )
+
+
+def test_plot_needs_project() -> None:
+    code, _, stderr = invoke(BOOK, "--as-of", "2025-06-30", "--plot", "x.png")
+    assert code == 2
+    assert stderr.startswith("Error: --plot draws a projection and needs --project")
+
+
+def test_plot_must_be_a_png_and_no_file_is_written(tmp_path: Path) -> None:
+    out = tmp_path / "p.xlsx"
+    code, _, stderr = invoke(BOOK, *PROJECT, "--out", str(out), "--plot", str(tmp_path / "p.jpg"))
+    assert code == 2 and "--plot must name a .png file" in stderr
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_every_target_is_checked_before_any_is_written(tmp_path: Path) -> None:
+    plot, out = tmp_path / "p.png", tmp_path / "p.xlsx"
+    plot.write_text("keep", encoding="utf-8")
+    code, _, stderr = invoke(BOOK, *PROJECT, "--out", str(out), "--plot", str(plot))
+    assert code == 4 and "already exists" in stderr
+    assert not out.exists() and plot.read_text(encoding="utf-8") == "keep"
+    code, _, stderr = invoke(BOOK, *PROJECT, "--out", str(out), "--plot", str(plot), "--force")
+    assert code == 0, stderr
+    assert _png_size(plot) == (1200, 800)
+    assert openpyxl.load_workbook(out).sheetnames[-1] == "charts"
+
+
+def test_the_same_file_twice_is_refused(tmp_path: Path) -> None:
+    target = tmp_path / "s.parquet"
+    code, _, stderr = invoke(
+        BOOK, "--as-of", "2025-06-30", "--out", str(target), "--schedules", str(target)
+    )
+    assert code == 2 and "two outputs would be written" in stderr and not target.exists()
+
+
+def test_positions_workbook_of_a_large_book_writes_every_schedule_beside(tmp_path: Path) -> None:
+    out = tmp_path / "p.xlsx"
+    code, stdout, stderr = invoke(BOOK, "--as-of", "2025-06-30", "--out", str(out))
+    assert code == 0, stderr
+    beside = tmp_path / "p.schedules.parquet"
+    assert f"wrote {beside}" in stdout.replace("\n", "")
+    assert len(set(pq.read_table(beside).column("loan_id").to_pylist())) == 300
+
+
+def test_help_states_the_loan_sheet_limit() -> None:
+    result = runner.invoke(app, ["book", "--help"], env={"COLUMNS": "200"})
+    assert "first 25 loans" in result.stdout and "FILE.schedules.parquet" in result.stdout
+    assert "--plot" in result.stdout
