@@ -30,7 +30,7 @@ import numpy as np
 import pandas as pd
 
 from amort import book_engine
-from amort.book import RATE_DEN, Book
+from amort.book import EXACT_COLUMNS, RATE_DEN, Book
 from amort.calendar import parse_date
 
 __all__ = ["POSITION_COLUMNS", "STATUSES", "positions", "positions_totals"]
@@ -182,31 +182,7 @@ def _frame(
     return frame
 
 
-_BOOK_COLUMNS = frozenset(
-    [
-        "row",
-        "loan_id",
-        "borrower",
-        "segment",
-        "principal_cents",
-        "annual_rate_num",
-        "term",
-        "frequency",
-        "disbursed_on",
-        "first_due_on",
-        "day_count",
-        "structure",
-        "interest_only",
-        "balloon_cents",
-        "payment_cents",
-        "rate_index",
-        "rate_margin_num",
-        "fees_cents",
-        "business_days",
-        "holidays",
-        "per_loan",
-    ]
-)
+_BOOK_COLUMNS = frozenset(EXACT_COLUMNS)  # the validated book's own columns (amort.book)
 
 
 def positions_totals(frame: pd.DataFrame, *, by: str | None = None) -> pd.DataFrame:
