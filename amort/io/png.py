@@ -184,7 +184,6 @@ def _figure(
     per: str,
 ) -> Any:
     from matplotlib.figure import Figure  # no pyplot: no global state, no GUI backend
-    from matplotlib.ticker import FuncFormatter, MaxNLocator
 
     width, height = inches
     balance, lower, upper = columns
@@ -257,23 +256,7 @@ def _figure(
     bottom.set_xlabel(f"{per} number")
     bottom.legend(loc="upper left", frameon=False, ncols=2)
     bottom.grid(True, axis="y", color="#E6E6E6", linewidth=0.8)
-    money = FuncFormatter(lambda value, _pos: f"{value:,.0f}")
-    for axes in (top, bottom):
-        axes.yaxis.set_major_formatter(money)
-        axes.spines[["top", "right"]].set_visible(False)
-    bottom.xaxis.set_major_locator(MaxNLocator(integer=True))
-    figure.suptitle(title, fontsize=12, color="#222222")
-    caution = "\n".join(textwrap.wrap(CAUTION, width=max(60, int(width * 16))))
-    bottom.annotate(
-        caution,
-        xy=(0, 0),
-        xycoords="figure fraction",
-        xytext=(6, 4),
-        textcoords="offset points",
-        fontsize=7,
-        color="#595959",
-        va="bottom",
-    )
+    _finish(figure, top, bottom, title=title, width=width)
     return figure
 
 
@@ -337,7 +320,6 @@ def _projection_figure(
     monthly: pd.DataFrame, title: str, inches: tuple[float, float], unit: str
 ) -> Any:
     from matplotlib.figure import Figure
-    from matplotlib.ticker import FuncFormatter, MaxNLocator
 
     width, height = inches
     month = monthly["month"].to_numpy(dtype=np.float64)
@@ -366,6 +348,14 @@ def _projection_figure(
     bottom.set_xlabel("month after the as-of date")
     bottom.legend(loc="upper right", frameon=False, ncols=4)
     bottom.grid(True, axis="y", color="#E6E6E6", linewidth=0.8)
+    _finish(figure, top, bottom, title=title, width=width)
+    return figure
+
+
+def _finish(figure: Any, top: Any, bottom: Any, *, title: str, width: float) -> None:
+    """Money tick labels, plain axes, whole-number x ticks, the title and the caution."""
+    from matplotlib.ticker import FuncFormatter, MaxNLocator
+
     money = FuncFormatter(lambda value, _pos: f"{value:,.0f}")
     for axes in (top, bottom):
         axes.yaxis.set_major_formatter(money)
@@ -383,4 +373,3 @@ def _projection_figure(
         color="#595959",
         va="bottom",
     )
-    return figure

@@ -317,6 +317,31 @@ def _width(ws: Worksheet, column: int, kind: str) -> float:
     return float(min(max(widest + 2, 8), 60))
 
 
+def add_checks_sheet(
+    wb: Workbook, name: str, checks: Iterable[tuple[str, str, bool]]
+) -> tuple[Worksheet, int]:
+    """Add a sheet of (check, figures, pass/FAIL) rows; return it and its next free row.
+
+    ``checks`` is a reconciliation's ``.checks`` list; the free row leaves one blank
+    row under the table, for the details a caller adds.
+    """
+    table = pd.DataFrame(
+        [
+            {"check": check, "figures": figures, "result": "pass" if ok else "FAIL"}
+            for check, figures, ok in checks
+        ]
+    )
+    ws = add_table_sheet(
+        wb,
+        name,
+        table,
+        title="Reconciliation against the closed form",
+        totals=(),
+        kinds={"check": "text", "figures": "text", "result": "text"},
+    )
+    return ws, FIRST_DATA_ROW + len(table) + 1
+
+
 def add_pairs_sheet(
     wb: Workbook,
     name: str,

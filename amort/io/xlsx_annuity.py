@@ -56,6 +56,7 @@ from amort.io.xlsx import (
     FIRST_DATA_ROW,
     HEADER_ROW,
     LIGHT_GREY,
+    add_checks_sheet,
     add_pairs_sheet,
     add_table_sheet,
     new_workbook,
@@ -295,21 +296,7 @@ def _summary_sheet(
 
 
 def _checks_sheet(wb: Workbook, check: Any) -> None:
-    table = pd.DataFrame(
-        [
-            {"check": name, "figures": figures, "result": "pass" if ok else "FAIL"}
-            for name, figures, ok in check.checks
-        ]
-    )
-    ws = add_table_sheet(
-        wb,
-        SHEETS["checks"],
-        table,
-        title="Reconciliation against the closed form",
-        totals=(),
-        kinds={"check": "text", "figures": "text", "result": "text"},
-    )
-    row = FIRST_DATA_ROW + len(table) + 1
+    ws, row = add_checks_sheet(wb, SHEETS["checks"], check.checks)
     details = [
         ("largest gap between cent and closed-form value", check.largest_gap),
         ("bound on that gap, u s_k (row by row)", check.gap_bound),

@@ -46,6 +46,7 @@ from amort.io.xlsx import (
     FLOW_COLUMNS,
     LIGHT_GREY,
     Cached,
+    add_checks_sheet,
     add_pairs_sheet,
     add_table_sheet,
     new_workbook,
@@ -323,21 +324,7 @@ def _checks_sheet(
     wb: Workbook, loan: Loan, frame: pd.DataFrame, spans: Mapping[str, str], cached: Cached
 ) -> None:
     check = loan.reconciliation()
-    table = pd.DataFrame(
-        [
-            {"check": name, "figures": figures, "result": "pass" if ok else "FAIL"}
-            for name, figures, ok in check.checks
-        ]
-    )
-    ws = add_table_sheet(
-        wb,
-        SHEETS["checks"],
-        table,
-        title="Reconciliation against the closed form",
-        totals=(),
-        kinds={"check": "text", "figures": "text", "result": "text"},
-    )
-    row = FIRST_DATA_ROW + len(table) + 1
+    ws, row = add_checks_sheet(wb, SHEETS["checks"], check.checks)
     details: list[tuple[str, float | Decimal]] = [
         ("largest gap between cent and closed-form balance", check.largest_gap),
         ("bound on that gap, u s_k (row by row)", check.gap_bound),
